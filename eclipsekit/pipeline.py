@@ -1,0 +1,365 @@
+"""The whole job in one call: read → period search → eclipse fit → velocity fit → absolute dimensions.
+
+:func:`analyse` chains the public functions of the package and returns an
+:class:`Analysis` holding every intermediate result, which can write the result files
+(:meth:`Analysis.write`) and draw the figures (:meth:`Analysis.plot`).
+"""
+
+from __future__ import annotations
+
+import os
+import time as _time
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from astropy.table import Table
+
+from .data import LightCurve, VelocityCurve, read_light_curve, read_velocities
+from .errors import EclipsekitWarning, InputError, NoEclipseFound
+
+__all__ = ["Analysis", "analyse", "LONG_CADENCE"]
+
+#: Cadence (days) above which unsmeared eclipse models are biased; 10 minutes.
+LONG_CADENCE = 10.0 / 1440.0
+
+
+@dataclass
+class Analysis:
+    """Everything one run of the pipeline produced.
+
+    Attributes
+    ----------
+    lc : LightCurve
+        The light curve as read.
+    rv : VelocityCurve or None
+    search : PeriodSearch or None
+    eclipse_fit : EclipseFit or None
+    orbit : OrbitFit or None
+    dimensions : AbsoluteDimensions or None
+    status : {'ok', 'no_eclipse_found'}
+    message : str
+    warnings : list of str
+        Every warning issued along the way.
+    timings : dict of str -> float
+        Wall-clock seconds per stage.
+    user_inputs : dict
+        Values given by hand (velocity amplitudes, temperatures, parallax), for the record.
+    command : str or None
+        The command line that produced the analysis, if any.
+    """
+
+    lc: LightCurve | None
+    rv: VelocityCurve | None = None
+    search: Any = None
+    eclipse_fit: Any = None
+    orbit: Any = None
+    dimensions: Any = None
+    status: str = "ok"
+    message: str = ""
+    warnings: list[str] = field(default_factory=list)
+    timings: dict[str, float] = field(default_factory=dict)
+    user_inputs: dict[str, Any] = field(default_factory=dict)
+    command: str | None = None
+
+    # -- reporting -------------------------------------------------------------------
+    def to_dict(self) -> dict[str, Any]:
+        """The ``result.json`` content (see ``DESIGN.md``)."""
+        from .results import result_dict
+
+        return result_dict(self)
+
+    def summary(self) -> str:
+        """A concise table of the results, as printed at the end of ``eclipsekit run``."""
+        from .summary import format_summary
+
+        return format_summary(self.to_dict())
+
+    def __repr__(self) -> str:
+        parts = [f"status={self.status!r}"]
+        if self.eclipse_fit is not None:
+            parts.append(f"P={self.eclipse_fit.values['period']:.7f} d")
+        if self.dimensions is not None:
+            v = self.dimensions.values
+            parts.append(f"M1={v['mass_primary']:.3f} M2={v['mass_secondary']:.3f} Msun")
+        return f"<Analysis {' '.join(parts)}>"
+
+    def write(self, out: str | os.PathLike, *, overwrite: bool = False, figures: bool = True,
+              formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Path]:
+        """Write every result file into the folder ``out``.
+
+        Files: ``result.json``, ``parameters.ecsv``, ``light_curve.ecsv``,
+        ``velocities.ecsv`` (with velocities), ``summary.txt`` and the figures.  Each is
+        written to a temporary name and renamed, so an interrupted run leaves no
+        half-written file; ``result.json`` is written last.
+
+        Returns
+        -------
+        dict of str -> Path
+            The files written, by role.
+        """
+        from . import results
+
+        folder = results.prepare_output_dir(out, overwrite=overwrite)
+        content = self.to_dict()
+        written: dict[str, Path] = {}
+        written["parameters"] = results.write_table(folder / "parameters.ecsv", results.parameters_table(content))
+        if self.lc is not None:
+            written["light_curve"] = results.write_table(folder / "light_curve.ecsv", self.light_curve_table())
+        if self.rv is not None:
+            written["velocities"] = results.write_table(folder / "velocities.ecsv", self.velocities_table())
+        if figures:
+            for name, path in self.plot(folder, formats=formats).items():
+                written[name] = path
+        written["summary"] = results.write_text(folder / "summary.txt", self.summary())
+        written["result"] = results.write_json(folder / "result.json", content)
+        return written
+
+    def plot(self, folder: str | os.PathLike | None = None,
+             formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Any]:
+        """Draw the figures; save them in ``folder`` when given, else return the figures."""
+        from . import plots
+
+        return plots.plot_analysis(self, folder, formats=formats)
+
+    # -- tables ------------------------------------------------------------------------
+    def light_curve_table(self) -> Table:
+        """The light curve with model, residual, phase and a rejected flag (rejected points kept)."""
+        lc = self.lc
+        fit = self.eclipse_fit
+        fitted = fit.lc if fit is not None else lc
+        table = Table()
+        table["time"] = lc.time
+        table["flux"] = lc.flux
+        table["flux_err"] = lc.flux_err
+        table["row"] = lc.row
+        used = np.isin(lc.row, fitted.row)
+        reason = np.full(len(lc), "", dtype=object)
+        for why, rows in fitted.rejected.items():
+            reason[np.isin(lc.row, rows)] = why
+        model = np.full(len(lc), np.nan)
+        detrended = np.full(len(lc), np.nan)
+        if fit is not None:
+            order = np.argsort(lc.row)
+            where = order[np.searchsorted(lc.row, fitted.row, sorter=order)]  # fitted point -> row of `lc`
+            # full model (eclipses × baseline) at the fitted points
+            model[where] = fit.model(fitted.time) * fit.baseline
+            detrended[where] = fit.detrended_flux
+        table["model"] = model
+        table["residual"] = lc.flux - model
+        table["detrended_flux"] = detrended
+        period, t0 = self._ephemeris()
+        table["phase"] = np.mod((lc.time - t0) / period + 0.25, 1.0) - 0.25 if period else np.nan
+        table["rejected"] = ~used
+        table["reason"] = reason.astype(str)
+        table["time"].unit = "d"
+        table.meta["time_system"] = lc.meta.get("time_system")
+        table.meta["comments"] = [
+            "phase: 0 at primary mid-eclipse, in [-0.25, 0.75)",
+            "model: eclipse model times the fitted baseline; detrended_flux = flux / baseline",
+            "rejected points (outliers from the fit) are kept with rejected = True",
+        ]
+        return table
+
+    def velocities_table(self) -> Table:
+        """The velocities with the orbit model and residuals."""
+        rv = self.rv
+        table = Table()
+        table["time"] = rv.time
+        for star in ("rv1", "rv2"):
+            table[star] = getattr(rv, star)
+            table[star + "_err"] = getattr(rv, star + "_err")
+        if self.orbit is not None:
+            m1, m2 = self.orbit.model(rv.time)
+            table["model_rv1"] = m1
+            table["residual_rv1"] = rv.rv1 - m1
+            if m2 is not None:
+                table["model_rv2"] = m2
+                table["residual_rv2"] = rv.rv2 - m2
+        period, t0 = self._ephemeris()
+        if period:
+            table["phase"] = np.mod((rv.time - t0) / period, 1.0)
+        for col in table.colnames:
+            if col != "phase":
+                table[col].unit = "d" if col == "time" else "km / s"
+        return table
+
+    def _ephemeris(self) -> tuple[float | None, float]:
+        if self.eclipse_fit is not None:
+            return self.eclipse_fit.values["period"], self.eclipse_fit.values["t0"]
+        if self.search is not None:
+            return self.search.period, self.search.t0
+        return None, 0.0
+
+
+class _Timer:
+    def __init__(self, timings: dict[str, float], name: str):
+        self.timings, self.name = timings, name
+
+    def __enter__(self) -> None:
+        self.start = _time.perf_counter()
+
+    def __exit__(self, *exc: Any) -> None:
+        self.timings[self.name] = _time.perf_counter() - self.start
+
+
+def analyse(
+    lc: LightCurve | str | os.PathLike,
+    velocities: VelocityCurve | str | os.PathLike | None = None,
+    *,
+    k_primary: Any = None,
+    k_secondary: Any = None,
+    teff_primary: Any = None,
+    teff_secondary: Any = None,
+    parallax: Any = None,
+    min_period: float | None = None,
+    max_period: float | None = None,
+    period: float | None = None,
+    t0: float | None = None,
+    exposure_time: Any = None,
+    errors: str = "covariance",
+    fix: tuple[str, ...] = (),
+    free: tuple[str, ...] = (),
+    progress: bool = True,
+    seed: int | None = None,
+    command: str | None = None,
+    fit_options: dict[str, Any] | None = None,
+) -> Analysis:
+    """Run the whole analysis of one eclipsing binary.
+
+    Parameters
+    ----------
+    lc : LightCurve or path
+        The photometry (a path is read with :func:`~eclipsekit.read_light_curve`).
+    velocities : VelocityCurve or path, optional
+        Radial velocities of one or both stars.
+    k_primary, k_secondary : (value, error) or Quantity, optional
+        Velocity semi-amplitudes measured elsewhere (km/s), used when no velocities are given.
+    teff_primary, teff_secondary : (value, error) or float, optional
+        Effective temperatures (K), for luminosities.
+    parallax : (value, error) or float, optional
+        Parallax in milliarcseconds, for the distance.
+    min_period, max_period : float, optional
+        Period search range in days.
+    period, t0 : float, optional
+        Skip the period search and start the fit from this ephemeris.
+    exposure_time : float or Quantity, optional
+        Integration time of each point (days, or a Quantity).  Defaults to the value
+        the reader found in the file header.
+    errors : {'covariance', 'mcmc', 'permutation'}
+        How the eclipse fit's uncertainties are estimated.
+    fix, free : sequence of str
+        Eclipse-fit parameters to fix or to free.
+    progress : bool
+        Show progress bars.
+    seed : int, optional
+        Random seed for sampling, for repeatable results.
+    command : str, optional
+        The command line, recorded in ``result.json``.
+    fit_options : dict, optional
+        Further keyword arguments to :func:`~eclipsekit.fit_eclipses`.
+
+    Returns
+    -------
+    Analysis
+        ``status`` is ``"no_eclipse_found"`` when the period search finds nothing
+        significant; the later steps are then skipped.
+    """
+    from .dimensions import absolute_dimensions
+    from .fitting import fit_eclipses
+    from .period import find_period
+    from .spectroscopy import fit_velocities
+
+    timings: dict[str, float] = {}
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", EclipsekitWarning)
+        with _Timer(timings, "read"):
+            if not isinstance(lc, LightCurve):
+                lc = read_light_curve(lc)
+            if velocities is not None and not isinstance(velocities, VelocityCurve):
+                velocities = read_velocities(velocities)
+        analysis = Analysis(lc=lc, rv=velocities, timings=timings, command=command)
+        analysis.user_inputs = {k: _record(v) for k, v in {
+            "k_primary": k_primary, "k_secondary": k_secondary, "teff_primary": teff_primary,
+            "teff_secondary": teff_secondary, "parallax": parallax}.items() if v is not None}
+        if velocities is not None and (k_primary is not None or k_secondary is not None):
+            raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
+
+        exposure = _exposure_days(exposure_time, lc)
+        if exposure is None and lc.cadence > LONG_CADENCE:
+            warnings.warn(
+                f"median cadence is {lc.cadence * 1440:.1f} min and no exposure time is known: eclipses are "
+                "smeared and the fitted radii and inclination will be biased; give --exposure-time",
+                EclipsekitWarning, stacklevel=2)
+
+        if period is None:
+            with _Timer(timings, "period search"):
+                try:
+                    analysis.search = find_period(lc, min_period=min_period, max_period=max_period,
+                                                  progress=progress)
+                except NoEclipseFound as exc:
+                    analysis.search = exc.search
+                    analysis.status = "no_eclipse_found"
+                    analysis.message = str(exc)
+            start: Any = analysis.search
+        else:
+            start = {"period": float(period), **({"t0": float(t0)} if t0 is not None else {})}
+
+        if analysis.status == "ok":
+            with _Timer(timings, "eclipse fit"):
+                analysis.eclipse_fit = fit_eclipses(
+                    lc, start, errors=errors, fix=tuple(fix), free=tuple(free), exposure_time=exposure or 0.0,
+                    progress=progress, seed=seed, **(fit_options or {}))
+            if velocities is not None:
+                with _Timer(timings, "velocity fit"):
+                    analysis.orbit = fit_velocities(velocities, analysis.eclipse_fit)
+            if analysis.orbit is not None or k_primary is not None:
+                with _Timer(timings, "absolute dimensions"):
+                    analysis.dimensions = absolute_dimensions(
+                        analysis.eclipse_fit, analysis.orbit, k_primary=k_primary, k_secondary=k_secondary,
+                        teff_primary=teff_primary, teff_secondary=teff_secondary, parallax=parallax, seed=seed)
+            else:
+                analysis.message = ("no velocities given: stopped after the eclipse fit "
+                                    "(give --rv or --k1/--k2 for masses and radii)")
+    analysis.warnings = _unique(
+        [str(w.message) for w in caught if issubclass(w.category, EclipsekitWarning)]
+        + list(getattr(analysis.eclipse_fit, "warnings", []) or [])
+        + list(getattr(analysis.orbit, "warnings", []) or [])
+        + list(getattr(analysis.dimensions, "warnings", []) or []))
+    return analysis
+
+
+def _exposure_days(exposure_time: Any, lc: LightCurve) -> float | None:
+    """Exposure time in days: the argument (days or Quantity) or else the file header's."""
+    if exposure_time is None:
+        return lc.meta.get("exposure_time")
+    try:
+        import astropy.units as u
+
+        if isinstance(exposure_time, u.Quantity):
+            value = float(exposure_time.to_value(u.day))
+        else:
+            value = float(exposure_time)
+    except Exception:  # noqa: BLE001 - any unconvertible value is the user's input error
+        raise InputError(f"`exposure_time` must be a time (days or a Quantity), got {exposure_time!r}") from None
+    if not np.isfinite(value) or value < 0:
+        raise InputError(f"`exposure_time` must be zero or positive, got {exposure_time!r}")
+    return value
+
+
+def _record(value: Any) -> Any:
+    if isinstance(value, (tuple, list)):
+        return [float(v) for v in value]
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return str(value)
+
+
+def _unique(items: list[str]) -> list[str]:
+    seen: dict[str, None] = {}
+    for item in items:
+        seen.setdefault(item, None)
+    return list(seen)

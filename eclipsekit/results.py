@@ -1,0 +1,327 @@
+"""Writing and reading results: ``result.json``, ECSV tables and the text summary.
+
+Every quantity is written as ``{"value": float, "uncertainty": float | null, "unit": str}``
+(``../shared/DESIGN.md``).  Files are written under a temporary name in the output
+folder and renamed into place, so an interrupted run never leaves a half-written file.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from collections.abc import Callable, Iterable, Mapping
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from astropy.table import Table
+
+from .errors import InputError
+
+__all__ = [
+    "SECTIONS",
+    "quantity",
+    "result_dict",
+    "parameters_table",
+    "write_atomic",
+    "prepare_output_dir",
+    "load_result",
+    "ResultSummary",
+]
+
+#: Which quantity goes in which section of ``result.json``, with its default unit
+#: (astropy unit strings; "" for dimensionless).
+SECTIONS: dict[str, dict[str, str]] = {
+    "ephemeris": {"period": "d", "t0": "d"},
+    "geometry": {
+        "radius_sum": "", "radius_ratio": "", "frac_radius_primary": "", "frac_radius_secondary": "",
+        "inclination": "deg", "eccentricity": "", "omega": "deg", "ecosw": "", "esinw": "",
+    },
+    "photometry": {
+        "surface_brightness_ratio": "", "light_ratio": "", "third_light": "",
+        "ld1_1": "", "ld1_2": "", "ld2_1": "", "ld2_2": "",
+        "depth_primary": "", "depth_secondary": "",
+    },
+    "spectroscopy": {
+        "k_primary": "km / s", "k_secondary": "km / s", "gamma": "km / s", "gamma_offset": "km / s",
+        "mass_ratio": "", "mass_function": "solMass", "jitter_primary": "km / s", "jitter_secondary": "km / s",
+        "rms_primary": "km / s", "rms_secondary": "km / s",
+    },
+    "absolute": {
+        "a": "solRad", "mass_primary": "solMass", "mass_secondary": "solMass",
+        "radius_primary": "solRad", "radius_secondary": "solRad",
+        "logg_primary": "dex(cm / s2)", "logg_secondary": "dex(cm / s2)",
+        "density_primary": "g / cm3", "density_secondary": "g / cm3",
+        "vsync_primary": "km / s", "vsync_secondary": "km / s",
+        "luminosity_primary": "solLum", "luminosity_secondary": "solLum",
+        "mbol_primary": "mag", "mbol_secondary": "mag", "distance": "pc",
+    },
+}
+
+
+def _finite_or_none(x: Any) -> float | None:
+    if x is None:
+        return None
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return None
+    return x if math.isfinite(x) else None
+
+
+def quantity(value: Any, uncertainty: Any = None, unit: str = "") -> dict[str, Any]:
+    """One quantity in the ``result.json`` form."""
+    return {"value": _finite_or_none(value), "uncertainty": _finite_or_none(uncertainty), "unit": unit}
+
+
+def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]:
+    """Collect the named quantities from result objects with ``values``/``uncertainties``/``units``.
+
+    A later source overrides an earlier one (e.g. the eclipse fit's period over the
+    period search's).
+    """
+    out: dict[str, Any] = {}
+    for src in sources:
+        if src is None:
+            continue
+        values = getattr(src, "values", {}) or {}
+        uncs = getattr(src, "uncertainties", {}) or {}
+        units = getattr(src, "units", {}) or {}
+        for name, unit in names.items():
+            if name in values and _finite_or_none(values[name]) is not None:
+                out[name] = quantity(values[name], uncs.get(name), units.get(name, unit))
+    return out
+
+
+def result_dict(analysis: Any) -> dict[str, Any]:
+    """Build the ``result.json`` content of an :class:`~eclipsekit.pipeline.Analysis`."""
+    from . import __version__
+
+    lc = analysis.lc
+    fit = analysis.eclipse_fit
+    search = analysis.search
+    search_values = None
+    if search is not None:
+        # The period search's estimates, in the same form as the fits' (used when no fit exists).
+        search_values = _Estimates(
+            {"period": search.period, "t0": search.t0},
+            {"period": search.period_err, "t0": search.t0_err},
+        )
+    out: dict[str, Any] = {
+        "eclipsekit_version": __version__,
+        "command": analysis.command,
+        "status": analysis.status,
+        "message": analysis.message,
+        "input": _input_section(analysis),
+        "ephemeris": _section([search_values, fit], SECTIONS["ephemeris"]),
+    }
+    out["ephemeris"]["time_system"] = lc.meta.get("time_system", "unknown") if lc is not None else "unknown"
+    if fit is not None:
+        out["geometry"] = _section([fit], SECTIONS["geometry"])
+        out["photometry"] = _section([fit], SECTIONS["photometry"])
+        out["photometry"]["ld_law"] = fit.ld_law
+    if analysis.orbit is not None or analysis.dimensions is not None:
+        out["spectroscopy"] = _section([analysis.dimensions, analysis.orbit], SECTIONS["spectroscopy"])
+    if analysis.dimensions is not None:
+        out["absolute"] = _section([analysis.dimensions], SECTIONS["absolute"])
+        out["absolute"]["uncertainty_budget"] = dict(getattr(analysis.dimensions, "budget", {}) or {})
+    out["fit"] = _fit_section(analysis)
+    if search is not None:
+        out["period_search"] = search.to_dict()
+    return out
+
+
+class _Estimates:
+    """Minimal ``values``/``uncertainties`` holder (for quantities that come from no fit)."""
+
+    def __init__(self, values: dict[str, float], uncertainties: dict[str, float | None]):
+        self.values = values
+        self.uncertainties = uncertainties
+        self.units: dict[str, str] = {}
+
+
+def _input_section(analysis: Any) -> dict[str, Any]:
+    lc = analysis.lc
+    section: dict[str, Any] = {}
+    if lc is not None:
+        fitted = analysis.eclipse_fit.lc if analysis.eclipse_fit is not None else lc
+        section["light_curve"] = {
+            "file": lc.meta.get("source"),
+            "n_points_used": int(len(fitted)),
+            "n_rejected": {k: int(v.size) for k, v in fitted.rejected.items()},
+            "time_system": lc.meta.get("time_system", "unknown"),
+            "time_offset": lc.meta.get("time_offset", 0.0),
+            "exposure_time": quantity(
+                None if lc.meta.get("exposure_time") is None else lc.meta["exposure_time"] * 86400.0, None, "s"),
+            "passband": lc.meta.get("passband"),
+        }
+    rv = analysis.rv
+    if rv is not None:
+        section["velocities"] = {
+            "file": rv.meta.get("source"),
+            "n_primary": int(np.isfinite(rv.rv1).sum()),
+            "n_secondary": int(np.isfinite(rv.rv2).sum()),
+            "n_rejected": {k: int(v.size) for k, v in rv.rejected.items()},
+            "time_system": rv.meta.get("time_system", "unknown"),
+        }
+    for name, given in (analysis.user_inputs or {}).items():
+        section[name] = given
+    return section
+
+
+def _fit_section(analysis: Any) -> dict[str, Any]:
+    fit = analysis.eclipse_fit
+    section: dict[str, Any] = {"warnings": list(analysis.warnings)}
+    if fit is None:
+        return section
+    section.update({
+        "method": "least squares (lmfit)",
+        "uncertainties": fit.errors_method,
+        "reduced_chi_square": _finite_or_none(fit.redchi),
+        "rms": quantity(fit.rms, None, ""),
+        "bic": _finite_or_none(fit.bic),
+        "n_free_parameters": int(fit.n_free),
+        "free_parameters": list(fit.free),
+        "n_samples": int(len(next(iter(fit.samples.values())))) if fit.samples else 0,
+        "exposure_time": quantity((fit.exposure_time or 0.0) * 86400.0, None, "s"),
+        "supersample": int(fit.supersample or 1),
+        "success": bool(fit.success),
+        "message": fit.message,
+    })
+    mcmc = getattr(fit, "mcmc", None)
+    if mcmc:
+        section["mcmc"] = {k: (_finite_or_none(v) if isinstance(v, (int, float, np.floating)) else v)
+                           for k, v in mcmc.items()}
+    if analysis.orbit is not None:
+        section["velocity_fit_reduced_chi_square"] = _finite_or_none(getattr(analysis.orbit, "redchi", None))
+    return section
+
+
+def parameters_table(result: Mapping[str, Any]) -> Table:
+    """All quantities of a ``result.json`` dict as an astropy Table, one row per quantity."""
+    rows = []
+    for section in SECTIONS:
+        for name, q in (result.get(section) or {}).items():
+            if isinstance(q, dict) and "value" in q:
+                rows.append((section, name, q["value"], q["uncertainty"], q["unit"]))
+    table = Table(rows=rows or None, names=("section", "name", "value", "uncertainty", "unit"),
+                  dtype=(str, str, float, float, str))
+    table["value"] = [np.nan if r[2] is None else r[2] for r in rows]
+    table["uncertainty"] = [np.nan if r[3] is None else r[3] for r in rows]
+    table.meta["comments"] = ["eclipsekit results; NaN uncertainty = not determined (fixed parameter)"]
+    return table
+
+
+# -- files -------------------------------------------------------------------------
+def prepare_output_dir(path: str | os.PathLike, overwrite: bool = False) -> Path:
+    """Create the output folder; refuse an existing non-empty one unless ``overwrite``."""
+    out = Path(path)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"output folder {str(out)!r} is a file; give a folder name with --out")
+    if out.is_dir() and any(out.iterdir()) and not overwrite:
+        raise InputError(f"output folder {str(out)!r} is not empty; use --overwrite or another --out")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create output folder {str(out)!r}: {exc.strerror}") from None
+    return out
+
+
+def write_atomic(path: str | os.PathLike, write: Callable[[str], None]) -> Path:
+    """Call ``write(tmp_name)`` for a temporary file beside ``path``, then rename it into place.
+
+    The rename is atomic on POSIX file systems, so ``path`` is either the old file,
+    absent, or complete — never half written.
+    """
+    path = Path(path)
+    suffix = "".join(path.suffixes)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=suffix + ".part", dir=path.parent)
+    os.close(fd)
+    try:
+        write(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+        raise
+    return path
+
+
+def write_json(path: str | os.PathLike, content: Mapping[str, Any]) -> Path:
+    """Write ``content`` as indented JSON, atomically."""
+    def _write(tmp: str) -> None:
+        with open(tmp, "w", encoding="utf-8") as fh:
+            json.dump(content, fh, indent=2, default=_json_default)
+            fh.write("\n")
+    return write_atomic(path, _write)
+
+
+def write_table(path: str | os.PathLike, table: Table) -> Path:
+    """Write an astropy Table as ECSV, atomically."""
+    return write_atomic(path, lambda tmp: table.write(tmp, format="ascii.ecsv", overwrite=True))
+
+
+def write_text(path: str | os.PathLike, text: str) -> Path:
+    def _write(tmp: str) -> None:
+        with open(tmp, "w", encoding="utf-8") as fh:
+            fh.write(text if text.endswith("\n") else text + "\n")
+    return write_atomic(path, _write)
+
+
+def _json_default(obj: Any) -> Any:
+    if isinstance(obj, np.generic):
+        return obj.item()
+    if isinstance(obj, np.ndarray):
+        return obj.tolist()
+    if isinstance(obj, Path):
+        return str(obj)
+    raise TypeError(f"cannot write {type(obj).__name__} to JSON")
+
+
+# -- reading back --------------------------------------------------------------------
+class ResultSummary:
+    """A ``result.json`` read back, with ``values``/``uncertainties``/``units`` and Gaussian samples.
+
+    Used by ``eclipsekit dimensions RESULT.json``: the file keeps no samples, so the
+    samples are independent Gaussian draws (correlations between the light-curve
+    parameters are lost, which overestimates the spread of quantities whose inputs are
+    anti-correlated; a warning says so).
+    """
+
+    def __init__(self, content: Mapping[str, Any], source: str | None = None, n_samples: int = 20000,
+                 seed: int | None = 1):
+        self.content = dict(content)
+        self.source = source
+        self.values: dict[str, float] = {}
+        self.uncertainties: dict[str, float | None] = {}
+        self.units: dict[str, str] = {}
+        for section in ("ephemeris", "geometry", "photometry"):
+            for name, q in (content.get(section) or {}).items():
+                if isinstance(q, dict) and q.get("value") is not None:
+                    self.values[name] = float(q["value"])
+                    self.uncertainties[name] = q.get("uncertainty")
+                    self.units[name] = q.get("unit", "")
+        rng = np.random.default_rng(seed)
+        self.samples = {
+            name: (v + (self.uncertainties[name] or 0.0) * rng.standard_normal(n_samples))
+            for name, v in self.values.items()
+        }
+
+    def __repr__(self) -> str:
+        return f"<ResultSummary {self.source or ''}: {len(self.values)} quantities>"
+
+
+def load_result(path: str | os.PathLike, n_samples: int = 20000) -> ResultSummary:
+    """Read a ``result.json`` written by eclipsekit."""
+    path = Path(path)
+    if not path.is_file():
+        raise InputError(f"{str(path)!r}: no such result file")
+    try:
+        content = json.loads(path.read_text(encoding="utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InputError(f"{str(path)!r} is not a result.json file ({exc.__class__.__name__})") from None
+    if not isinstance(content, dict) or "geometry" not in content:
+        raise InputError(f"{str(path)!r} holds no eclipse-fit geometry; run `eclipsekit fit` or `run` first")
+    return ResultSummary(content, source=str(path), n_samples=n_samples)
