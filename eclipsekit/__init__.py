@@ -5,6 +5,6 @@ Keplerian orbit, and combine with radial velocities into absolute masses and rad
 """
 
 from .errors import EclipsekitError, EclipsekitWarning, FitError, GeometryError, InputError, NoEclipseFound
-from .data import LightCurve, VelocityCurve
+from .data import LightCurve, VelocityCurve, magnitudes_to_flux, read_light_curve, read_velocities
 
 __version__ = "0.1.0"

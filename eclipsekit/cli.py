@@ -23,7 +23,23 @@ def _common(parser: argparse.ArgumentParser) -> None:
 
 
 def _cmd_inspect(args: argparse.Namespace) -> int:
-    raise NotImplementedError  # filled in by the readers' work
+    """Read a light-curve or velocity file and print what was kept and rejected."""
+    import json
+
+    from .data import _guess_kind, read_light_curve, read_velocities
+
+    photometry_options = (args.flux_col, args.err_col, args.mag_col)
+    time_options = {"time_col": args.time_col, "time_system": args.time_system, "time_offset": args.time_offset}
+    if any(o is not None for o in photometry_options) or _guess_kind(args.file) == "light curve":
+        data = read_light_curve(args.file, flux_col=args.flux_col, err_col=args.err_col, mag_col=args.mag_col,
+                                **time_options)
+    else:
+        data = read_velocities(args.file, **time_options)
+    if args.json:
+        print(json.dumps(data.summary_dict(), indent=2))
+    else:
+        print(data.summary())
+    return 0
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -34,6 +50,13 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("inspect", help="read a light curve or velocity file and summarise it")
     p.add_argument("file", help="light-curve or velocity file (CSV, ASCII, ECSV or FITS)")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--time-col", metavar="NAME", help="name of the time column")
+    p.add_argument("--flux-col", metavar="NAME", help="name of the flux column")
+    p.add_argument("--err-col", metavar="NAME", help="name of the flux (or magnitude) error column")
+    p.add_argument("--mag-col", metavar="NAME", help="name of a magnitude column (instead of flux)")
+    p.add_argument("--time-system", metavar="SYSTEM", help="BJD_TDB, HJD, JD, MJD or unknown")
+    p.add_argument("--time-offset", metavar="DAYS", type=float, help="days to add to the file's times")
     _common(p)
     p.set_defaults(func=_cmd_inspect)
     return parser
