@@ -7,6 +7,8 @@ Exit codes: 0 ok, 1 the analysis could not conclude (no eclipse found, fit faile
 from __future__ import annotations
 
 import argparse
+import json
+import shlex
 import sys
 import warnings
 from collections.abc import Sequence
@@ -22,27 +24,216 @@ def _common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--debug", action="store_true", help="show full tracebacks")
 
 
+
+# ---- value parsing -----------------------------------------------------------------
+def _value_error(text: str) -> tuple[float, float]:
+    """Parse ``V±E`` (also ``V+-E``, ``V,E`` or ``V E``) into (value, error)."""
+    cleaned = text.replace("±", ",").replace("+/-", ",").replace("+-", ",").replace(" ", ",")
+    parts = [p for p in cleaned.split(",") if p]
+    try:
+        numbers = [float(p) for p in parts]
+    except ValueError:
+        numbers = []
+    if len(numbers) != 2:
+        raise argparse.ArgumentTypeError(f"expected VALUE±ERROR (e.g. 85.2±0.4 or 85.2,0.4), got {text!r}")
+    return numbers[0], numbers[1]
+
+
+def _positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if not value > 0:
+        raise argparse.ArgumentTypeError(f"expected a positive number, got {text!r}")
+    return value
+
+
+def _reader_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("light-curve columns and time")
+    g.add_argument("--time-col", metavar="NAME", help="name of the time column")
+    g.add_argument("--flux-col", metavar="NAME", help="name of the flux column")
+    g.add_argument("--err-col", metavar="NAME", help="name of the flux (or magnitude) error column")
+    g.add_argument("--mag-col", metavar="NAME", help="name of a magnitude column (converted to flux)")
+    g.add_argument("--time-system", metavar="SYSTEM",
+                   help="BJD_TDB, HJD, JD, MJD or unknown (overrides what is detected)")
+    g.add_argument("--time-offset", type=float, metavar="DAYS", help="days to add to the file's times (e.g. 2457000)")
+
+
+def _period_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("period search")
+    g.add_argument("--min-period", type=_positive_float, help="shortest trial period (days)")
+    g.add_argument("--max-period", type=_positive_float, help="longest trial period (days)")
+
+
+def _fit_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("eclipse fit")
+    g.add_argument("--period", type=_positive_float, help="start the fit from this period (days), skipping the search")
+    g.add_argument("--t0", type=float, help="time of primary mid-eclipse to start from (days)")
+    g.add_argument("--exposure-time", type=float, metavar="SECONDS",
+                   help="integration time of each point in seconds (turns on exposure smearing)")
+    g.add_argument("--free", nargs="+", default=[], metavar="PARAM", help="parameters to fit that are fixed by default")
+    g.add_argument("--fix", nargs="+", default=[], metavar="PARAM", help="parameters to hold fixed")
+    g.add_argument("--errors", choices=["covariance", "mcmc", "permutation"], default="covariance",
+                   help="how uncertainties are estimated (default: covariance)")
+    g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
+
+
+def _dimension_options(p: argparse.ArgumentParser, rv_flag: bool = True) -> None:
+    g = p.add_argument_group("spectroscopy and absolute dimensions")
+    if rv_flag:
+        g.add_argument("--rv", help="radial-velocity file (columns time, rv1, rv1_err, rv2, rv2_err; km/s)")
+    g.add_argument("--k1", type=_value_error, metavar="V±E", help="primary's velocity semi-amplitude, km/s")
+    g.add_argument("--k2", type=_value_error, metavar="V±E", help="secondary's velocity semi-amplitude, km/s")
+    g.add_argument("--teff1", type=_value_error, metavar="T±E", help="primary's effective temperature, K")
+    g.add_argument("--teff2", type=_value_error, metavar="T±E", help="secondary's effective temperature, K")
+    g.add_argument("--parallax", type=_value_error, metavar="P±E", help="parallax in milliarcseconds")
+
+
+def _output_options(p: argparse.ArgumentParser, default: str | None) -> None:
+    g = p.add_argument_group("output")
+    g.add_argument("--out", default=default, metavar="DIR", help=f"output folder (default: {default})")
+    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+
+
+def _read_lc(args: argparse.Namespace):
+    from .data import read_light_curve
+
+    return read_light_curve(args.file, time_col=args.time_col, flux_col=args.flux_col, err_col=args.err_col,
+                            mag_col=args.mag_col, time_system=args.time_system, time_offset=args.time_offset)
+
+
+def _command_line(argv: Sequence[str] | None) -> str:
+    return shlex.join(["eclipsekit", *(sys.argv[1:] if argv is None else argv)])
+
+
+# ---- commands ----------------------------------------------------------------------
 def _cmd_inspect(args: argparse.Namespace) -> int:
     """Read a light-curve or velocity file and print what was kept and rejected."""
-    import json
-
-    from .data import _guess_kind, read_light_curve, read_velocities
+    from .data import _guess_kind, read_velocities
 
     photometry_options = (args.flux_col, args.err_col, args.mag_col)
-    time_options = {"time_col": args.time_col, "time_system": args.time_system, "time_offset": args.time_offset}
     if any(o is not None for o in photometry_options) or _guess_kind(args.file) == "light curve":
-        data = read_light_curve(args.file, flux_col=args.flux_col, err_col=args.err_col, mag_col=args.mag_col,
-                                **time_options)
+        data = _read_lc(args)
     else:
-        data = read_velocities(args.file, **time_options)
-    if args.json:
-        print(json.dumps(data.summary_dict(), indent=2))
-    else:
-        print(data.summary())
+        data = read_velocities(args.file, time_col=args.time_col, time_system=args.time_system,
+                               time_offset=args.time_offset)
+    print(json.dumps(data.summary_dict(), indent=2) if args.json else data.summary())
     return 0
 
 
+def _cmd_period(args: argparse.Namespace) -> int:
+    """Search for the orbital period and print the result."""
+    from .errors import NoEclipseFound
+    from .period import find_period
+
+    lc = _read_lc(args)
+    try:
+        search = find_period(lc, min_period=args.min_period, max_period=args.max_period,
+                             oversample=args.oversample, progress=not args.quiet)
+    except NoEclipseFound as exc:
+        if args.plot and exc.search is not None:
+            _save_periodograms(exc.search, args.plot, lc)
+        if args.json:
+            print(json.dumps({"status": "no_eclipse_found", "message": str(exc),
+                              **({"period_search": exc.search.to_dict()} if exc.search is not None else {})},
+                             indent=2))
+        raise
+    if args.plot:
+        _save_periodograms(search, args.plot, lc)
+    print(json.dumps({"status": "ok", **search.to_dict()}, indent=2) if args.json else search.summary())
+    return 0
+
+
+def _save_periodograms(search, path: str, lc=None) -> None:
+    from pathlib import Path
+
+    from .plots import plot_periodograms
+    from .results import write_atomic
+
+    fig = plot_periodograms(search, lc)
+    target = Path(path)
+    write_atomic(target, lambda tmp: fig.savefig(tmp, format=target.suffix.lstrip(".") or "png"))
+
+
+def _cmd_analyse(args: argparse.Namespace) -> int:
+    """``fit``, ``run`` and ``demo``: the pipeline, then the result files."""
+    from .data import sample_paths
+    from .pipeline import analyse
+    from .results import prepare_output_dir
+
+    if args.command == "demo":
+        lc_path, rv_path = sample_paths()
+        lc, rv = str(lc_path), str(rv_path)
+        # spectroscopic temperatures "measured" for the invented demo system (see samples/README.md)
+        args.teff1, args.teff2 = (7550.0, 150.0), (6600.0, 150.0)
+    else:
+        lc = _read_lc(args)
+        rv = getattr(args, "rv", None)
+    prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
+    exposure = None if getattr(args, "exposure_time", None) is None else args.exposure_time / 86400.0
+    fit_options = {}
+    if getattr(args, "supersample", None) is not None:
+        fit_options["supersample"] = args.supersample
+    analysis = analyse(
+        lc, rv,
+        k_primary=getattr(args, "k1", None), k_secondary=getattr(args, "k2", None),
+        teff_primary=getattr(args, "teff1", None), teff_secondary=getattr(args, "teff2", None),
+        parallax=getattr(args, "parallax", None),
+        min_period=getattr(args, "min_period", None), max_period=getattr(args, "max_period", None),
+        period=getattr(args, "period", None), t0=getattr(args, "t0", None), exposure_time=exposure,
+        errors=getattr(args, "errors", "covariance"), fix=tuple(getattr(args, "fix", ())),
+        free=tuple(getattr(args, "free", ())), progress=not args.quiet, seed=getattr(args, "seed", None),
+        command=args.command_line, fit_options=fit_options)
+    written = analysis.write(args.out, overwrite=True)
+    print(analysis.summary())
+    print()
+    print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
+    return 0 if analysis.status == "ok" else 1
+
+
+def _cmd_dimensions(args: argparse.Namespace) -> int:
+    """Absolute dimensions from a result.json and velocities (or amplitudes)."""
+    from .dimensions import absolute_dimensions
+    from .results import dimensions_result, load_result, prepare_output_dir, write_dimension_files
+    from .spectroscopy import fit_velocities
+
+    light = load_result(args.result)
+    if args.rv is None and args.k1 is None:
+        raise InputError("give velocities with --rv FILE, or amplitudes with --k1 V±E (and --k2 V±E)")
+    if args.rv is not None and (args.k1 is not None or args.k2 is not None):
+        raise InputError("give either --rv or --k1/--k2, not both")
+    if args.out:
+        prepare_output_dir(args.out, overwrite=args.overwrite)
+    orbit = None
+    rv = None
+    if args.rv is not None:
+        from .data import read_velocities
+
+        rv = read_velocities(args.rv)
+        orbit = fit_velocities(rv, light)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", EclipsekitWarning)
+        dims = absolute_dimensions(light, orbit, k_primary=args.k1, k_secondary=args.k2, teff_primary=args.teff1,
+                                   teff_secondary=args.teff2, parallax=args.parallax, seed=args.seed)
+    notes = [str(w.message) for w in caught] + [
+        "result.json keeps no samples: light-curve parameters were drawn as independent Gaussians, so their "
+        "correlations are not propagated"]
+    content = dimensions_result(light, orbit, dims, notes, command=args.command_line)
+    from .summary import format_summary
+
+    text = format_summary(content)
+    print(text)
+    if args.out:
+        written = write_dimension_files(args.out, content, text, orbit=orbit, dimensions=dims)
+        print()
+        print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written)))
+    return 0
+
+
+# ---- parser ------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``eclipsekit`` command."""
     parser = argparse.ArgumentParser(prog="eclipsekit", description="Analysis of detached eclipsing binary stars.")
     parser.add_argument("--version", action="version", version=f"eclipsekit {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
@@ -51,19 +242,55 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("inspect", help="read a light curve or velocity file and summarise it")
     p.add_argument("file", help="light-curve or velocity file (CSV, ASCII, ECSV or FITS)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
-    p.add_argument("--time-col", metavar="NAME", help="name of the time column")
-    p.add_argument("--flux-col", metavar="NAME", help="name of the flux column")
-    p.add_argument("--err-col", metavar="NAME", help="name of the flux (or magnitude) error column")
-    p.add_argument("--mag-col", metavar="NAME", help="name of a magnitude column (instead of flux)")
-    p.add_argument("--time-system", metavar="SYSTEM", help="BJD_TDB, HJD, JD, MJD or unknown")
-    p.add_argument("--time-offset", metavar="DAYS", type=float, help="days to add to the file's times")
+    _reader_options(p)
     _common(p)
     p.set_defaults(func=_cmd_inspect)
+
+    p = sub.add_parser("period", help="find the orbital period and epoch of primary eclipse")
+    p.add_argument("file", help="light-curve file")
+    _reader_options(p)
+    _period_options(p)
+    p.add_argument("--oversample", type=_positive_float, default=None,
+                   help="frequency-grid oversampling factor (default: the search's own)")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--plot", metavar="FILE", help="save the periodograms to FILE (PNG or PDF)")
+    _common(p)
+    p.set_defaults(func=_cmd_period)
+
+    p = sub.add_parser("fit", help="find the period and fit both eclipses; write the results")
+    p.add_argument("file", help="light-curve file")
+    _reader_options(p)
+    _period_options(p)
+    _fit_options(p)
+    _output_options(p, "eclipsekit-results")
+    _common(p)
+    p.set_defaults(func=_cmd_analyse)
+
+    p = sub.add_parser("run", help="the whole job: period, eclipse fit, velocities, absolute dimensions, files")
+    p.add_argument("file", help="light-curve file")
+    _reader_options(p)
+    _period_options(p)
+    _fit_options(p)
+    _dimension_options(p)
+    _output_options(p, "eclipsekit-results")
+    _common(p)
+    p.set_defaults(func=_cmd_analyse)
+
+    p = sub.add_parser("dimensions", help="masses, radii, gravities (and luminosities) from a result.json")
+    p.add_argument("result", help="result.json written by `eclipsekit fit` or `run`")
+    _dimension_options(p)
+    p.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
+    g = p.add_argument_group("output")
+    g.add_argument("--out", metavar="DIR", help="also write result files into DIR")
+    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    _common(p)
+    p.set_defaults(func=_cmd_dimensions)
+
+    p = sub.add_parser("demo", help="run the whole job on the bundled sample of an invented system")
+    _output_options(p, "eclipsekit-demo")
+    _common(p)
+    p.set_defaults(func=_cmd_analyse)
     return parser
-
-
-class _ArgumentParserError(Exception):
-    pass
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -74,6 +301,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except SystemExit as exc:  # argparse already printed usage or help
         return int(exc.code or 0)
     debug = getattr(args, "debug", False)
+    args.command_line = _command_line(argv)
     with warnings.catch_warnings():
         if getattr(args, "quiet", False):
             warnings.simplefilter("ignore", EclipsekitWarning)
@@ -87,6 +315,12 @@ def main(argv: Sequence[str] | None = None) -> int:
                 raise
             print(f"eclipsekit: error: {exc}", file=sys.stderr)
             return 2 if isinstance(exc, InputError) else 1
+        except OSError as exc:  # e.g. an output folder that cannot be written
+            if debug:
+                raise
+            where = f" {exc.filename!r}" if exc.filename else ""
+            print(f"eclipsekit: error: cannot write or read{where}: {exc.strerror or exc}", file=sys.stderr)
+            return 2
         except KeyboardInterrupt:
             print("eclipsekit: interrupted", file=sys.stderr)
             return 130

@@ -33,7 +33,7 @@ from astropy.utils.exceptions import AstropyWarning
 from . import _columns
 from .errors import EclipsekitWarning, InputError
 
-__all__ = ["LightCurve", "VelocityCurve", "read_light_curve", "read_velocities", "magnitudes_to_flux",
+__all__ = ["sample_paths", "LightCurve", "VelocityCurve", "read_light_curve", "read_velocities", "magnitudes_to_flux",
            "TIME_SYSTEMS", "MIN_POINTS", "MIN_VELOCITIES"]
 
 #: Time systems a light curve or velocity curve may be in.
@@ -1077,3 +1077,15 @@ def _guess_kind(path: str | PathLike) -> str:
     has_rv = _columns.find_column(names, _columns.velocity_candidates(1)) is not None
     has_phot = _columns.find_column(names, _columns.FLUX_NAMES + _columns.MAG_NAMES) is not None
     return "velocities" if has_rv and not has_phot else "light curve"
+
+
+def sample_paths() -> tuple[Path, Path]:
+    """Paths of the bundled demo sample: (light curve, velocities) of the invented system EKD-1.
+
+    The files are made by ``scripts/make_samples.py``; ``truth.json`` beside them holds
+    the parameters they were made with.
+    """
+    from importlib.resources import files
+
+    folder = files("eclipsekit") / "sample_data"
+    return Path(str(folder / "demo_light_curve.csv")), Path(str(folder / "demo_velocities.csv"))

@@ -191,6 +191,8 @@ class Analysis:
             return self.eclipse_fit.values["period"], self.eclipse_fit.values["t0"]
         if self.search is not None:
             return self.search.period, self.search.t0
+        if self.orbit is not None:
+            return self.orbit.values["period"], self.orbit.values["t0"]
         return None, 0.0
 
 

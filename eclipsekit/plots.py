@@ -59,10 +59,15 @@ def _binned(x: np.ndarray, y: np.ndarray, n_bins: int, lo: float, hi: float) -> 
     return centre[good], sums[good] / counts[good]
 
 
-def plot_periodograms(search: Any) -> Figure:
-    """Box-least-squares power and PDM θ against trial period, with the chosen period marked."""
-    fig = _figure(3.3)
-    ax1, ax2 = fig.subplots(2, 1, sharex=True)
+def plot_periodograms(search: Any, lc: Any = None) -> Figure:
+    """Box-least-squares power and PDM θ against trial period, with the chosen period marked.
+
+    With the light curve ``lc``, a third panel shows it folded on the chosen period.
+    """
+    fig = _figure(4.6 if lc is not None else 3.3)
+    axes = fig.subplots(3 if lc is not None else 2, 1)
+    ax1, ax2 = axes[0], axes[1]
+    ax2.sharex(ax1)
     if getattr(search, "bls_periods", None) is not None and len(search.bls_periods):
         order = np.argsort(search.bls_periods)
         ax1.plot(search.bls_periods[order], search.bls_power[order], color=PALETTE["blue"], lw=0.6)
@@ -72,12 +77,21 @@ def plot_periodograms(search: Any) -> Figure:
         ax2.plot(search.pdm_periods[order], search.pdm_theta[order], color=PALETTE["green"], lw=0.6)
     ax2.set_ylabel(r"PDM $\theta$")
     ax2.set_xlabel("Trial period (d)")
-    ax2.set_xscale("log")
+    ax1.set_xscale("log")
     period = getattr(search, "period", None)
     if period is not None and np.isfinite(period):
         for ax in (ax1, ax2):
             ax.axvline(period, color=PALETTE["vermillion"], lw=0.8, ls="--", zorder=0)
         ax1.set_title(f"Chosen period {period:.6f} d", loc="left")
+        if lc is not None:
+            ax3 = axes[2]
+            phase = _phase(lc.time, period, search.t0)
+            ax3.plot(phase, lc.flux, ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True)
+            bx, by = _binned(phase, lc.flux, 400, -0.25, 0.75)
+            ax3.plot(bx, by, ".", ms=2.0, color=PALETTE["blue"])
+            ax3.set_xlim(-0.25, 0.75)
+            ax3.set_xlabel("Orbital phase")
+            ax3.set_ylabel("Relative flux")
     return fig
 
 

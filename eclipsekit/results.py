@@ -29,6 +29,8 @@ __all__ = [
     "prepare_output_dir",
     "load_result",
     "ResultSummary",
+    "dimensions_result",
+    "write_dimension_files",
 ]
 
 #: Which quantity goes in which section of ``result.json``, with its default unit
@@ -325,3 +327,41 @@ def load_result(path: str | os.PathLike, n_samples: int = 20000) -> ResultSummar
     if not isinstance(content, dict) or "geometry" not in content:
         raise InputError(f"{str(path)!r} holds no eclipse-fit geometry; run `eclipsekit fit` or `run` first")
     return ResultSummary(content, source=str(path), n_samples=n_samples)
+
+
+def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: Iterable[str],
+                      command: str | None = None) -> dict[str, Any]:
+    """A read-back ``result.json`` with the spectroscopic and absolute sections added."""
+    from . import __version__
+
+    content = dict(light.content)
+    content["eclipsekit_version"] = __version__
+    content["command"] = command
+    content["status"] = "ok"
+    content["spectroscopy"] = _section([dimensions, orbit], SECTIONS["spectroscopy"])
+    content["absolute"] = _section([dimensions], SECTIONS["absolute"])
+    content["absolute"]["uncertainty_budget"] = dict(getattr(dimensions, "budget", {}) or {})
+    fit = dict(content.get("fit") or {})
+    warnings_ = list(fit.get("warnings") or [])
+    for note in [*notes, *(getattr(orbit, "warnings", []) or []), *(getattr(dimensions, "warnings", []) or [])]:
+        if note not in warnings_:
+            warnings_.append(note)
+    fit["warnings"] = warnings_
+    content["fit"] = fit
+    return content
+
+
+def write_dimension_files(out: str | os.PathLike, content: Mapping[str, Any], text: str, *, orbit: Any = None,
+                          dimensions: Any = None) -> list[Path]:
+    """Write ``result.json``, ``parameters.ecsv``, ``summary.txt``, velocities and figures for ``dimensions``."""
+    from .pipeline import Analysis
+
+    folder = Path(out)
+    analysis = Analysis(lc=None, rv=getattr(orbit, "rv", None), orbit=orbit, dimensions=dimensions)
+    written = [write_table(folder / "parameters.ecsv", parameters_table(content))]
+    if analysis.rv is not None:
+        written.append(write_table(folder / "velocities.ecsv", analysis.velocities_table()))
+    written.extend(analysis.plot(folder).values())
+    written.append(write_text(folder / "summary.txt", text))
+    written.append(write_json(folder / "result.json", content))
+    return written

@@ -21,7 +21,7 @@ import time
 from pathlib import Path
 
 import eclipsekit as ek
-from eclipsekit.cli import sample_paths
+from eclipsekit.data import sample_paths
 
 
 def main() -> None:

@@ -1,0 +1,110 @@
+"""The command line: exit codes and one-line errors for bad input, no-eclipse status, period and dimensions."""
+
+import json
+
+import numpy as np
+import pytest
+
+from eclipsekit.cli import _value_error, main
+from eclipsekit.data import sample_paths
+
+
+def _one_line_error(capsys):
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1, err
+    assert "Traceback" not in err[0]
+    return err[0]
+
+
+def _write_csv(path, header, rows):
+    path.write_text(header + "\n" + "\n".join(",".join(f"{v:.8f}" for v in row) for row in rows) + "\n")
+    return path
+
+
+@pytest.fixture
+def noise_lc(tmp_path):
+    # pure white noise: there is no eclipse to find
+    rng = np.random.default_rng(5)
+    t = np.arange(0, 20, 0.01)
+    return _write_csv(tmp_path / "noise.csv", "time,flux,flux_err",
+                      np.column_stack([t, 1 + 1e-3 * rng.standard_normal(t.size), np.full(t.size, 1e-3)]))
+
+
+def test_missing_file(tmp_path, capsys):
+    assert main(["run", str(tmp_path / "nope.csv"), "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    assert "nope.csv" in _one_line_error(capsys)
+
+
+def test_wrong_columns(tmp_path, capsys):
+    path = _write_csv(tmp_path / "lc.csv", "a,b,c", np.ones((30, 3)))
+    assert main(["run", str(path), "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    msg = _one_line_error(capsys)
+    assert "lc.csv" in msg and "--time-col" in msg
+
+
+def test_velocity_file_wrong_columns(tmp_path, capsys):
+    lc, _ = sample_paths()
+    rv = _write_csv(tmp_path / "rv.csv", "time,speed,speed_err", np.ones((10, 3)))
+    assert main(["run", str(lc), "--rv", str(rv), "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    assert "rv.csv" in _one_line_error(capsys)
+
+
+def test_output_folder_is_a_file(tmp_path, capsys):
+    lc, _ = sample_paths()
+    afile = tmp_path / "taken"
+    afile.write_text("")
+    assert main(["run", str(lc), "--out", str(afile), "--quiet"]) == 2
+    assert "is a file" in _one_line_error(capsys)
+
+
+def test_bad_amplitude_syntax(tmp_path, capsys):
+    lc, _ = sample_paths()
+    assert main(["run", str(lc), "--k1", "ninety", "--out", str(tmp_path / "o")]) == 2
+    assert "VALUE±ERROR" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("text, expected", [("85.2±0.4", (85.2, 0.4)), ("85.2+-0.4", (85.2, 0.4)),
+                                            ("85.2,0.4", (85.2, 0.4)), ("7550 150", (7550.0, 150.0))])
+def test_value_error_parsing(text, expected):
+    assert _value_error(text) == expected
+
+
+def test_no_eclipse_found_exit_1_with_status(noise_lc, tmp_path, capsys):
+    out = tmp_path / "o"
+    assert main(["run", str(noise_lc), "--out", str(out), "--quiet"]) == 1
+    result = json.loads((out / "result.json").read_text())
+    assert result["status"] == "no_eclipse_found"
+    assert result["message"]
+
+
+def test_period_command_no_eclipse(noise_lc, capsys):
+    assert main(["period", str(noise_lc), "--quiet"]) == 1
+    assert "eclipse" in _one_line_error(capsys).lower()
+
+
+def test_period_command_json_and_plot(tmp_path, capsys):
+    lc, _ = sample_paths()
+    truth = json.loads((lc.parent / "truth.json").read_text())
+    png = tmp_path / "p.png"
+    assert main(["period", str(lc), "--json", "--plot", str(png), "--quiet", "--max-period", "10"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    # sample made with P = 3.2418127 d (samples/truth.json); a 27-day sector pins P to ~1e-4 d
+    assert abs(out["period"] - truth["period"]) < 1e-3
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_dimensions_command(tmp_path, capsys):
+    lc, rv = sample_paths()
+    fit_dir = tmp_path / "fit"
+    assert main(["fit", str(lc), "--out", str(fit_dir), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["dimensions", str(fit_dir / "result.json"), "--rv", str(rv), "--out", str(tmp_path / "dims"),
+                 "--quiet", "--seed", "2"]) == 0
+    result = json.loads((tmp_path / "dims" / "result.json").read_text())
+    assert result["absolute"]["mass_primary"]["value"] > 0
+    # and with amplitudes given by hand
+    assert main(["dimensions", str(fit_dir / "result.json"), "--k1", "91.8±0.3", "--k2", "118.4±0.4",
+                 "--quiet"]) == 0
+    assert "M1" in capsys.readouterr().out
+    # neither velocities nor amplitudes: usage error
+    assert main(["dimensions", str(fit_dir / "result.json"), "--quiet"]) == 2
