@@ -26,17 +26,17 @@ def _common(parser: argparse.ArgumentParser) -> None:
 
 
 # ---- value parsing -----------------------------------------------------------------
-def _value_error(text: str) -> tuple[float, float]:
-    """Parse ``V±E`` (also ``V+-E``, ``V,E`` or ``V E``) into (value, error)."""
-    cleaned = text.replace("±", ",").replace("+/-", ",").replace("+-", ",").replace(" ", ",")
-    parts = [p for p in cleaned.split(",") if p]
+def _value_error(text: str) -> tuple[float, float] | float:
+    """``V±E`` (or ``V+-E``, ``V +/- E``) as (value, error); a bare number as a value without error."""
+    from .dimensions import parse_value_error
+
     try:
-        numbers = [float(p) for p in parts]
-    except ValueError:
-        numbers = []
-    if len(numbers) != 2:
-        raise argparse.ArgumentTypeError(f"expected VALUE±ERROR (e.g. 85.2±0.4 or 85.2,0.4), got {text!r}")
-    return numbers[0], numbers[1]
+        return parse_value_error(text)
+    except InputError as exc:
+        try:
+            return float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(str(exc)) from None
 
 
 def _positive_float(text: str) -> float:

@@ -52,7 +52,7 @@ SECTIONS: dict[str, dict[str, str]] = {
         "rms_primary": "km / s", "rms_secondary": "km / s",
     },
     "absolute": {
-        "a": "solRad", "mass_primary": "solMass", "mass_secondary": "solMass",
+        "a": "solRad", "mass_sum": "solMass", "mass_primary": "solMass", "mass_secondary": "solMass",
         "radius_primary": "solRad", "radius_secondary": "solRad",
         "logg_primary": "dex(cm / s2)", "logg_secondary": "dex(cm / s2)",
         "density_primary": "g / cm3", "density_secondary": "g / cm3",
@@ -79,7 +79,9 @@ def quantity(value: Any, uncertainty: Any = None, unit: str = "") -> dict[str, A
 
 
 def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]:
-    """Collect the named quantities from result objects with ``values``/``uncertainties``/``units``.
+    """Collect the named quantities from result objects with ``values``/``uncertainties``.
+
+    Units are those of :data:`SECTIONS` (astropy unit strings), whatever the object's own labels.
 
     A later source overrides an earlier one (e.g. the eclipse fit's period over the
     period search's).
@@ -90,10 +92,11 @@ def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]
             continue
         values = getattr(src, "values", {}) or {}
         uncs = getattr(src, "uncertainties", {}) or {}
-        units = getattr(src, "units", {}) or {}
         for name, unit in names.items():
-            if name in values and _finite_or_none(values[name]) is not None:
-                out[name] = quantity(values[name], uncs.get(name), units.get(name, unit))
+            # fit statistics such as rms_primary are attributes rather than fitted values
+            value = values.get(name, getattr(src, name, None))
+            if _finite_or_none(value) is not None:
+                out[name] = quantity(value, uncs.get(name), unit)
     return out
 
 

@@ -1,0 +1,654 @@
+"""Spectroscopic orbit: Keplerian fit of single- or double-lined radial velocities.
+
+:func:`fit_velocities` fits the semi-amplitudes K1, K2, the systemic velocity gamma
+(optionally a separate offset for star 2), e and omega (as e cos w, e sin w) and,
+optionally, a jitter term per star, with the period and the time of primary eclipse
+taken from the light-curve ephemeris (fixed, or free with the ephemeris as a prior).
+The result, :class:`OrbitFit`, carries samples drawn from the covariance for the
+propagation of uncertainties into :func:`~eclipsekit.dimensions.absolute_dimensions`.
+
+Conventions (see DESIGN.md): omega is the argument of periastron of the primary's
+orbit in degrees, the primary eclipse (t0) is at true anomaly 90 deg - omega, and a
+positive velocity is receding::
+
+    v1 = gamma + K1 [cos(nu + omega) + e cos omega]
+    v2 = gamma + gamma_offset - K2 [cos(nu + omega) + e cos omega]
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+from typing import Any
+
+import astropy.units as u
+import lmfit
+import numpy as np
+
+from . import orbit as _orbit
+from .data import VelocityCurve
+from .dimensions import mass_function as _mass_function
+from .dimensions import minimum_masses as _minimum_masses
+from .dimensions import projected_semi_major_axis as _asini
+from .errors import EclipsekitWarning, FitError, InputError
+
+__all__ = ["OrbitFit", "fit_velocities"]
+
+_E_MAX = 0.95          # e cos w, e sin w are boxed to +-0.95 and e is capped there in the model
+_UNITS = {"k_primary": "km / s", "k_secondary": "km / s", "gamma": "km / s", "gamma_offset": "km / s",
+          "ecosw": "", "esinw": "", "eccentricity": "", "omega": "deg", "mass_ratio": "",
+          "mass_function": "M_sun", "mass_primary_sin3i": "M_sun", "mass_secondary_sin3i": "M_sun",
+          "a_sin_i": "R_sun", "a1_sin_i": "R_sun", "jitter_primary": "km / s", "jitter_secondary": "km / s",
+          "period": "d", "t0": "d"}
+
+
+@dataclass(frozen=True, eq=False)
+class OrbitFit:
+    """Outcome of :func:`fit_velocities`.
+
+    Attributes
+    ----------
+    values, uncertainties, units : dict
+        ``k_primary``, ``k_secondary`` (km/s; NaN when single-lined), ``gamma``,
+        ``gamma_offset`` (star 2 minus star 1, km/s; 0 unless ``separate_gamma``),
+        ``ecosw``, ``esinw``, ``eccentricity``, ``omega`` (deg), ``mass_ratio`` (K1/K2 =
+        M2/M1), ``mass_function`` (M_sun), for double-lined orbits ``mass_primary_sin3i``,
+        ``mass_secondary_sin3i`` (M_sun) and ``a_sin_i`` (R_sun), ``a1_sin_i`` (R_sun),
+        ``jitter_primary``, ``jitter_secondary`` (km/s; 0 unless fitted), ``period``, ``t0``
+        (days).  Uncertainties are None for quantities that were held fixed.
+    samples : dict of str -> ndarray
+        Draws from the fit's multivariate normal (same keys, same length).
+    free : list of str
+        The fitted parameters.
+    rv : VelocityCurve
+        The velocities fitted.
+    residuals_primary, residuals_secondary : ndarray
+        Observed minus model (km/s) at ``rv.time``; NaN where the star was not measured.
+    rms_primary, rms_secondary : float
+        Root-mean-square residual per star (km/s; NaN without data).
+    error_scale_primary, error_scale_secondary : float
+        Factors applied to the quoted velocity errors (>= 1) before the covariance was
+        computed; 1 when jitter was fitted instead.
+    chisqr, redchi : float
+        Chi-square with the quoted errors (and fitted jitter) and its reduced value.
+    n_free, n_data : int
+    double_lined, jitter, separate_gamma : bool
+    success : bool
+    message : str
+    warnings : list of str
+    lmfit_result : lmfit.minimizer.MinimizerResult
+    """
+
+    values: dict[str, float]
+    uncertainties: dict[str, float | None]
+    units: dict[str, str]
+    samples: dict[str, np.ndarray] = field(repr=False)
+    free: list[str]
+    rv: VelocityCurve = field(repr=False)
+    residuals_primary: np.ndarray = field(repr=False)
+    residuals_secondary: np.ndarray = field(repr=False)
+    rms_primary: float
+    rms_secondary: float
+    error_scale_primary: float
+    error_scale_secondary: float
+    chisqr: float
+    redchi: float
+    n_free: int
+    n_data: int
+    double_lined: bool
+    jitter: bool
+    separate_gamma: bool
+    success: bool
+    message: str
+    warnings: list[str] = field(default_factory=list)
+    lmfit_result: Any = field(default=None, repr=False)
+    inclination: float | None = None
+
+    def model(self, time: Any) -> tuple[np.ndarray, np.ndarray | None]:
+        """Model velocities (km/s) at ``time`` (days or Quantity): ``(rv1, rv2)``; rv2 None if single-lined."""
+        t = np.asarray(time.to_value(u.day) if isinstance(time, u.Quantity) else time, float)
+        v = self.values
+        k2 = v["k_secondary"] if self.double_lined else None
+        rv1, rv2 = _orbit.radial_velocities(t, period=v["period"], t0=v["t0"], k_primary=v["k_primary"],
+                                            k_secondary=k2, gamma=v["gamma"], ecosw=v["ecosw"],
+                                            esinw=v["esinw"], **_incl_kw(self.inclination))
+        if rv2 is not None:
+            rv2 = rv2 + v["gamma_offset"]
+        return rv1, rv2
+
+    def summary(self) -> str:
+        kind = "double-lined" if self.double_lined else "single-lined"
+        lines = [f"Spectroscopic orbit ({kind}; {self.n_data} velocities, {self.n_free} free parameters, "
+                 f"reduced chi-square {self.redchi:.3f})"]
+        for k, val in self.values.items():
+            if not np.isfinite(val):
+                continue
+            err = self.uncertainties.get(k)
+            err_s = f"± {err:.4g}" if err is not None else ("(n/a)" if k in self.free else "(fixed)")
+            lines.append(f"  {k:22s} {val:18.11g} {err_s:14s} {self.units.get(k, '')}")
+        lines.append(f"  rms primary {self.rms_primary:.3f} km/s"
+                     + (f", secondary {self.rms_secondary:.3f} km/s" if self.double_lined else ""))
+        if not self.jitter and (self.error_scale_primary > 1 or self.error_scale_secondary > 1):
+            lines.append(f"  velocity errors scaled by {self.error_scale_primary:.3f} (primary)"
+                         + (f", {self.error_scale_secondary:.3f} (secondary)" if self.double_lined else ""))
+        if not self.success:
+            lines.append(f"  FIT FAILED: {self.message}")
+        lines += [f"  warning: {w}" for w in self.warnings]
+        return "\n".join(lines)
+
+    def __repr__(self) -> str:
+        v, e = self.values, self.uncertainties
+        k2 = f", K2 = {v['k_secondary']:.3f}" if self.double_lined else ""
+        return (f"<OrbitFit K1 = {v['k_primary']:.3f}{k2} km/s, gamma = {v['gamma']:.3f} km/s, "
+                f"e = {v['eccentricity']:.4f}, rms = {self.rms_primary:.3f} km/s>")
+
+
+# --- helpers ----------------------------------------------------------------------------
+def _incl_kw(inclination: float | None) -> dict[str, float]:
+    """Pass the light-curve inclination to the orbit (exact mid-eclipse time) when known."""
+    if inclination is None or not np.isfinite(inclination):
+        return {}
+    inc = float(inclination) if inclination <= 90.0 else 180.0 - float(inclination)  # same projection
+    return {"inclination": inc} if 0.0 < inc < 90.0 else {}
+
+
+def _days(x: Any, name: str) -> float | None:
+    if x is None:
+        return None
+    if isinstance(x, u.Quantity):
+        try:
+            return float(x.to_value(u.day))
+        except u.UnitConversionError as exc:
+            raise InputError(f"`{name}` must be a time (days), got unit {x.unit}") from exc
+    try:
+        return float(x)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"`{name}` must be a number of days or a time Quantity") from exc
+
+
+def _value_error(x: Any, name: str) -> tuple[float | None, float | None]:
+    """float | (value, error) -> (value, error)."""
+    if x is None:
+        return None, None
+    if isinstance(x, (tuple, list)):
+        if len(x) != 2:
+            raise InputError(f"`{name}` must be a value or a (value, error) pair")
+        return float(x[0]), (None if x[1] is None else float(x[1]))
+    return float(x), None
+
+
+def _ephemeris_info(eph: Any) -> dict[str, tuple[float | None, float | None]]:
+    """period, t0, ecosw, esinw -> (value, error) from an EclipseFit, PeriodSearch or alike."""
+    out: dict[str, tuple[float | None, float | None]] = {}
+    if eph is None:
+        return out
+    vals = getattr(eph, "values", None)
+    errs = getattr(eph, "uncertainties", None)
+    samp = getattr(eph, "samples", None)
+    vals = vals if isinstance(vals, dict) else {}
+    errs = errs if isinstance(errs, dict) else {}
+    samp = samp if isinstance(samp, dict) else {}
+    for key in ("period", "t0", "ecosw", "esinw", "inclination"):
+        val = vals.get(key, getattr(eph, key, None) if not vals else None)
+        err = errs.get(key, getattr(eph, f"{key}_err", None) if not errs else None)
+        if err is None and key in samp and np.size(samp[key]) > 1:
+            err = float(np.std(samp[key]))
+        if val is not None and np.isfinite(val):
+            ok_err = err is not None and np.isfinite(err) and err > 0
+            out[key] = (float(val), float(err) if ok_err else None)
+    if not out and isinstance(eph, dict):
+        return {k: _value_error(v, k) for k, v in eph.items()
+                if k in ("period", "t0", "ecosw", "esinw", "inclination")}
+    return out
+
+
+def _design_start(time, rv1, w1, rv2, w2, period, t0, ecosw, esinw, separate_gamma, rv_kw):
+    """Linear least squares for (gamma, K1, K2, gamma_offset) at fixed P, t0, e, omega; returns (chi2, coeffs)."""
+    g, _ = _orbit.radial_velocities(time, period=period, t0=t0, k_primary=1.0, ecosw=ecosw, esinw=esinw,
+                                    **rv_kw)
+    g = np.asarray(g, float)
+    rows, rhs = [], []
+    m1, m2 = np.isfinite(rv1), np.isfinite(rv2)
+    n1, n2 = m1.sum(), m2.sum()
+    a1 = np.zeros((n1, 4))
+    a1[:, 0], a1[:, 1] = 1.0, g[m1]
+    rows.append(a1 * w1[m1, None])
+    rhs.append(rv1[m1] * w1[m1])
+    if n2:
+        a2 = np.zeros((n2, 4))
+        a2[:, 0], a2[:, 2] = 1.0, -g[m2]
+        a2[:, 3] = 1.0 if separate_gamma else 0.0
+        rows.append(a2 * w2[m2, None])
+        rhs.append(rv2[m2] * w2[m2])
+    a = np.vstack(rows)
+    b = np.concatenate(rhs)
+    cols = [0, 1] + ([2] if n2 else []) + ([3] if (n2 and separate_gamma) else [])
+    coef = np.zeros(4)
+    sol, *_ = np.linalg.lstsq(a[:, cols], b, rcond=None)
+    coef[cols] = sol
+    chi2 = float(np.sum((a[:, cols] @ sol - b) ** 2))
+    return chi2, coef
+
+
+def _circular_t0(time, rv, w, period):
+    """t0 from a sinusoid fit v = gamma - K sin(2 pi (t - t0) / P) (circular orbit)."""
+    m = np.isfinite(rv)
+    th = 2 * np.pi * time[m] / period
+    a = np.column_stack([np.ones(m.sum()), np.cos(th), np.sin(th)]) * w[m, None]
+    (gam, ca, sb), *_ = np.linalg.lstsq(a, rv[m] * w[m], rcond=None)
+    th0 = np.arctan2(ca, -sb)          # -K sin(th - th0) = K sin th0 cos th - K cos th0 sin th
+    t0 = th0 * period / (2 * np.pi)
+    # move t0 to the cycle nearest the middle of the data
+    mid = np.median(time[m])
+    return float(t0 + np.round((mid - t0) / period) * period)
+
+
+def fit_velocities(
+    rv: VelocityCurve,
+    ephemeris: Any = None,
+    *,
+    period: Any = None,
+    t0: Any = None,
+    fit_ephemeris: bool = False,
+    ecosw: Any = None,
+    esinw: Any = None,
+    fit_eccentricity: bool | None = None,
+    jitter: bool = False,
+    separate_gamma: bool = False,
+    n_samples: int = 4000,
+    seed: int | np.random.Generator | None = None,
+) -> OrbitFit:
+    """Fit a Keplerian orbit to radial velocities.
+
+    Parameters
+    ----------
+    rv : VelocityCurve
+        Velocities (km/s) of the primary and, for a double-lined binary, the secondary
+        (NaN where a star was not measured).
+    ephemeris : object, optional
+        The light-curve ephemeris: an :class:`~eclipsekit.fitting.EclipseFit`, a
+        :class:`~eclipsekit.period.PeriodSearch` or anything with ``values["period"]``,
+        ``values["t0"]`` (and optionally ``ecosw``, ``esinw``, ``uncertainties``,
+        ``samples``), or attributes ``period``, ``t0``, ``period_err``, ``t0_err``.
+    period, t0 : float or Quantity, optional
+        Override the ephemeris (days).  Without any t0 it is fitted freely (started
+        from a sinusoid fit).
+    fit_ephemeris : bool
+        If True the period and t0 are free, with the ephemeris values and uncertainties
+        as Gaussian priors (extra residuals ``(P - P_eph) / sigma_P``); otherwise fixed.
+    ecosw, esinw : float or (value, error), optional
+        Override the ephemeris' e cos w, e sin w.
+    fit_eccentricity : bool, optional
+        None (default): fixed at the known e cos w, e sin w when the ephemeris or the
+        arguments give them without uncertainties (e.g. a circular light-curve fit);
+        fitted with them as Gaussian priors when they come with uncertainties (the
+        light curve constrains e cos w well, the velocities e sin w); fitted freely
+        when unknown.  Fixed (at 0 if unknown) with fewer than 8 primary velocities.
+        True: fitted (with priors when uncertainties are known).  False: fixed.
+    jitter : bool
+        Fit an extra velocity scatter per star, added in quadrature to the errors.
+    separate_gamma : bool
+        Fit a separate systemic-velocity offset for star 2 (e.g. different templates).
+    n_samples : int
+        Number of samples drawn from the covariance.
+    seed : int or Generator, optional
+
+    Returns
+    -------
+    OrbitFit
+
+    Raises
+    ------
+    InputError
+        No period, too few velocities, a bad ephemeris.
+    FitError
+        The covariance could not be estimated and ``n_samples`` > 0 (singular problem).
+
+    Notes
+    -----
+    The model is v1 = gamma + K1 [cos(nu + w) + e cos w] and v2 = gamma + d_gamma - K2
+    [cos(nu + w) + e cos w] (e.g. Hilditch 2001, eq. 2.45), with nu from Kepler's
+    equation and t0 at nu = 90 deg - w.  Start values come from a linear least-squares
+    solution for (gamma, K1, K2, d_gamma), on a grid of (e, w) when e is free.
+
+    Without jitter, each star's velocity errors are multiplied by sqrt(chi2_i / dof_i)
+    when that exceeds 1 (its reduced chi-square over the star's share of the degrees of
+    freedom) and the fit is repeated, so each K's uncertainty reflects that star's own
+    scatter; errors are never shrunk.  The covariance is then (J^T J)^-1 of the
+    weighted residuals, unscaled.
+
+    With jitter, the likelihood with variances sigma_i^2 + s^2 is maximised by
+    least squares on an augmented residual vector: the normalised residuals
+    r_i / sqrt(sigma_i^2 + s^2) plus sqrt(ln(1 + s^2 / sigma_i^2)) per point, whose
+    sum of squares is -2 ln L up to a constant.  The orbit parameters' covariance is
+    (J^T J)^-1 at the best-fit variances; the jitter's variance is the inverse of its
+    Fisher information 2 s^2 sum 1 / (sigma_i^2 + s^2)^2 (zero cross terms).
+
+    Samples are drawn from the multivariate normal of the free parameters; derived
+    quantities (e, omega, mass ratio, mass function, M sin^3 i) are computed per sample.
+
+    References
+    ----------
+    .. [1] Hilditch, R. W. 2001, An Introduction to Close Binary Stars (CUP), ch. 2.
+    .. [2] Lucy, L. B. & Sweeney, M. A. 1971, AJ 76, 544 (small eccentricities are biased).
+    """
+    if not all(hasattr(rv, a) for a in ("time", "rv1", "rv1_err", "rv2", "rv2_err")):
+        raise InputError("`rv` must be a VelocityCurve (see eclipsekit.read_velocities)")
+    rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
+    notes: list[str] = []
+
+    def warn(msg: str) -> None:
+        notes.append(msg)
+        warnings.warn(msg, EclipsekitWarning, stacklevel=3)
+
+    time = np.asarray(rv.time, float)
+    rv1, e1 = np.asarray(rv.rv1, float), np.asarray(rv.rv1_err, float)
+    rv2, e2 = np.asarray(rv.rv2, float), np.asarray(rv.rv2_err, float)
+    m1, m2 = np.isfinite(rv1), np.isfinite(rv2)
+    n1, n2 = int(m1.sum()), int(m2.sum())
+    double = n2 > 0
+    if n1 == 0:
+        raise InputError("`rv` has no primary velocities (rv1)")
+    if separate_gamma and not double:
+        warn("`separate_gamma` ignored: single-lined velocities")
+        separate_gamma = False
+
+    # --- ephemeris and eccentricity -------------------------------------------------------
+    eph = _ephemeris_info(ephemeris)
+    if ephemeris is not None and "period" not in eph:
+        raise InputError("`ephemeris` has no period (expected .values['period'] or .period)")
+    p_val, p_err = eph.get("period", (None, None))
+    t_val, t_err = eph.get("t0", (None, None))
+    if period is not None:
+        p_val, p_err = _days(period, "period"), None
+    if t0 is not None:
+        t_val, t_err = _days(t0, "t0"), None
+    if p_val is None:
+        raise InputError("`period` is needed: pass an ephemeris (light-curve fit or period search) or period=")
+    if not p_val > 0:
+        raise InputError(f"`period` must be positive, got {p_val}")
+    ec_val, ec_err = eph.get("ecosw", (None, None))
+    es_val, es_err = eph.get("esinw", (None, None))
+    if ecosw is not None:
+        ec_val, ec_err = _value_error(ecosw, "ecosw")
+    if esinw is not None:
+        es_val, es_err = _value_error(esinw, "esinw")
+    known_e = ec_val is not None or es_val is not None
+    ec_val = 0.0 if ec_val is None else ec_val
+    es_val = 0.0 if es_val is None else es_val
+    if np.hypot(ec_val, es_val) >= 1:
+        raise InputError(f"ecosw = {ec_val}, esinw = {es_val} give e >= 1")
+    if fit_eccentricity is None:
+        # fixed where the light curve fixed it; fitted (with its priors) where it measured it
+        measured_e = ec_err is not None or es_err is not None
+        fit_eccentricity = (not known_e or measured_e) and n1 >= 8
+        if not known_e and n1 < 8:
+            warn(f"only {n1} primary velocities: the orbit is assumed circular (pass fit_eccentricity=True "
+                 f"to fit e)")
+    incl = eph.get("inclination", (None, None))[0]
+    rv_kw = _incl_kw(incl)
+    fit_t0 = fit_ephemeris or t_val is None
+    if t_val is None:
+        t_val = _circular_t0(time, rv1, 1 / e1, p_val)
+        warn("no t0 given: the time of primary eclipse is fitted from the velocities alone")
+
+    n_free = (2 if not double else 3) + int(separate_gamma) + 2 * bool(fit_eccentricity) \
+        + int(fit_t0) + int(fit_ephemeris) + (1 + int(double)) * bool(jitter)
+    n_prior = int(fit_ephemeris and p_err is not None) + int(fit_ephemeris and t_err is not None) \
+        + int(bool(fit_eccentricity) and ec_err is not None) + int(bool(fit_eccentricity) and es_err is not None)
+    n_data = n1 + n2
+    if n_data + n_prior <= n_free:
+        raise InputError(f"{n_data} velocities cannot constrain {n_free} free parameters; give more epochs "
+                         f"or fix the eccentricity / ephemeris")
+
+    # --- start values: linear solution over an (e, omega) grid ---------------------------------
+    w1 = np.where(m1, 1 / np.where(m1, e1, 1.0), 0.0)
+    w2 = np.where(m2, 1 / np.where(m2, e2, 1.0), 0.0)
+    if fit_eccentricity and not known_e:
+        grid = [(0.0, 0.0)] + [(e * np.cos(w), e * np.sin(w)) for e in (0.05, 0.15, 0.3, 0.45, 0.6)
+                               for w in np.radians(np.arange(0, 360, 30))]
+    else:
+        grid = [(ec_val, es_val)]
+    best = None
+    for ec, es in grid:
+        chi2, coef = _design_start(time, rv1, w1, rv2, w2, p_val, t_val, ec, es, separate_gamma, rv_kw)
+        if coef[1] > 0 and (not double or coef[2] > 0) and (best is None or chi2 < best[0]):
+            best = (chi2, coef, ec, es)
+    if best is None:  # every grid point gave a negative K: keep the circular solution's magnitudes
+        chi2, coef = _design_start(time, rv1, w1, rv2, w2, p_val, t_val, ec_val, es_val, separate_gamma, rv_kw)
+        best = (chi2, np.abs(coef), ec_val, es_val)
+    _, coef, ec0, es0 = best
+
+    t_ref = t_val
+    params = lmfit.Parameters()
+    params.add("k_primary", value=max(coef[1], 1e-3), min=0.0)
+    if double:
+        params.add("k_secondary", value=max(coef[2], 1e-3), min=0.0)
+    params.add("gamma", value=coef[0])
+    if separate_gamma:
+        params.add("gamma_offset", value=coef[3])
+    params.add("ecosw", value=ec0, min=-_E_MAX, max=_E_MAX, vary=bool(fit_eccentricity))
+    params.add("esinw", value=es0, min=-_E_MAX, max=_E_MAX, vary=bool(fit_eccentricity))
+    params.add("period", value=p_val, min=0.5 * p_val, max=1.5 * p_val, vary=bool(fit_ephemeris))
+    params.add("t0_offset", value=0.0, min=-0.5 * p_val, max=0.5 * p_val, vary=bool(fit_t0))  # t0 - t_ref
+    if jitter:
+        params.add("jitter_primary", value=0.5 * float(np.median(e1[m1])), min=0.0)
+        if double:
+            params.add("jitter_secondary", value=0.5 * float(np.median(e2[m2])), min=0.0)
+
+    priors = []
+    if fit_ephemeris:
+        if p_err is not None:
+            priors.append(("period", p_val, p_err))
+        if t_err is not None:
+            priors.append(("t0", t_val, t_err))
+        if p_err is None or t_err is None:
+            warn("`fit_ephemeris`: the ephemeris has no uncertainty for the period or t0; "
+                 "that parameter is fitted without a prior")
+    if fit_eccentricity:
+        if ec_err is not None:
+            priors.append(("ecosw", ec_val, ec_err))
+        if es_err is not None:
+            priors.append(("esinw", es_val, es_err))
+
+    scale = {"primary": 1.0, "secondary": 1.0}
+
+    def model_at(pv: dict[str, float]) -> tuple[np.ndarray, np.ndarray]:
+        ec, es = pv["ecosw"], pv["esinw"]
+        e = np.hypot(ec, es)
+        if e > _E_MAX:  # keep Kepler's equation well posed at the box corners
+            ec, es = ec * _E_MAX / e, es * _E_MAX / e
+        m_1, m_2 = _orbit.radial_velocities(time, period=pv["period"], t0=t_ref + pv["t0_offset"],
+                                            k_primary=pv["k_primary"], k_secondary=pv.get("k_secondary", 0.0),
+                                            gamma=pv["gamma"], ecosw=ec, esinw=es, **rv_kw)
+        return np.asarray(m_1, float), np.asarray(m_2, float) + pv.get("gamma_offset", 0.0)
+
+    def residual(p: lmfit.Parameters, augmented: bool = True) -> np.ndarray:
+        pv = p.valuesdict()
+        mod1, mod2 = model_at(pv)
+        parts = []
+        s1 = pv.get("jitter_primary", 0.0)
+        var1 = (e1[m1] * scale["primary"]) ** 2 + s1**2
+        parts.append((rv1[m1] - mod1[m1]) / np.sqrt(var1))
+        if double:
+            s2 = pv.get("jitter_secondary", 0.0)
+            var2 = (e2[m2] * scale["secondary"]) ** 2 + s2**2
+            parts.append((rv2[m2] - mod2[m2]) / np.sqrt(var2))
+        if jitter and augmented:
+            # sum of squares of these = sum ln(var / sigma^2): the normalisation of the likelihood
+            parts.append(np.sqrt(np.log1p(s1**2 / e1[m1] ** 2)))
+            if double:
+                parts.append(np.sqrt(np.log1p(s2**2 / e2[m2] ** 2)))
+        for name, mu, sig in priors:
+            x = t_ref + pv["t0_offset"] if name == "t0" else pv[name]
+            parts.append(np.atleast_1d((x - mu) / sig))
+        return np.concatenate(parts)
+
+    def run(p: lmfit.Parameters) -> lmfit.minimizer.MinimizerResult:
+        return lmfit.minimize(residual, p, method="least_squares", scale_covar=False, nan_policy="raise")
+
+    try:
+        result = run(params)
+        if not jitter:
+            # per-star error scaling (never below 1), then refit
+            pv = result.params.valuesdict()
+            mod1, mod2 = model_at(pv)
+            dof_frac = max(n_data + n_prior - n_free, 1) / (n_data + n_prior)
+            chi1 = np.sum(((rv1[m1] - mod1[m1]) / e1[m1]) ** 2)
+            scale["primary"] = float(np.sqrt(max(1.0, chi1 / (n1 * dof_frac))))
+            if double:
+                chi2_ = np.sum(((rv2[m2] - mod2[m2]) / e2[m2]) ** 2)
+                scale["secondary"] = float(np.sqrt(max(1.0, chi2_ / (n2 * dof_frac))))
+            if scale["primary"] > 1 or scale["secondary"] > 1:
+                result = run(result.params)
+        else:
+            # covariance of the orbit at the best-fit jitter (the jitter's own from its Fisher information)
+            fixed = result.params.copy()
+            for name in ("jitter_primary", "jitter_secondary"):
+                if name in fixed:
+                    fixed[name].set(vary=False)
+            jitter_result = result
+            result = run(fixed)
+    except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
+        raise FitError(f"the velocity fit failed: {exc}") from exc
+
+    best_p = result.params
+    pv = best_p.valuesdict()
+    success = bool(result.success)
+    message = str(result.message)
+    if not success:
+        warn(f"the velocity fit did not converge: {message}")
+
+    # --- covariance and samples -----------------------------------------------------------------
+    var_names = list(result.var_names)
+    covar = result.covar
+    if covar is None or not np.all(np.isfinite(covar)) or np.any(np.diag(covar) < 0):
+        warn("the covariance of the velocity fit could not be estimated (degenerate data?); "
+             "uncertainties are not available")
+        covar = None
+    stderr: dict[str, float | None] = {}
+    if covar is not None:
+        for i, name in enumerate(var_names):
+            stderr[name] = float(np.sqrt(covar[i, i]))
+        draws = rng.multivariate_normal([pv[n] for n in var_names], covar, size=int(n_samples),
+                                        method="eigh", check_valid="ignore")
+    else:
+        draws = np.tile([pv[n] for n in var_names], (int(n_samples), 1))
+    samp: dict[str, np.ndarray] = {}
+    for name in ("k_primary", "k_secondary", "gamma", "gamma_offset", "ecosw", "esinw", "period", "t0_offset"):
+        if name in var_names:
+            samp[name] = draws[:, var_names.index(name)]
+        else:
+            samp[name] = np.full(int(n_samples), pv.get(name, np.nan if name == "k_secondary" else 0.0))
+    jit_val = {"primary": 0.0, "secondary": 0.0}
+    jit_err: dict[str, float | None] = {"primary": None, "secondary": None}
+    if jitter:
+        for star, mask, err in (("primary", m1, e1), ("secondary", m2, e2)):
+            name = f"jitter_{star}"
+            if name not in jitter_result.params:
+                continue
+            s = float(jitter_result.params[name].value)
+            jit_val[star] = s
+            fisher = 2 * s**2 * np.sum(1 / (err[mask] ** 2 + s**2) ** 2)
+            if s > 1e-3 * float(np.median(err[mask])) and fisher > 0:
+                jit_err[star] = float(1 / np.sqrt(fisher))
+            else:
+                warn(f"the {star}'s jitter is consistent with zero")
+    for star in ("primary", "secondary"):
+        sd = jit_err[star] or 0.0
+        samp[f"jitter_{star}"] = np.abs(jit_val[star] + sd * rng.standard_normal(int(n_samples)))
+
+    t0_best = t_ref + pv["t0_offset"]
+    samp["t0"] = t_ref + samp.pop("t0_offset")
+    k2s = samp["k_secondary"]
+    ecc = np.hypot(samp["ecosw"], samp["esinw"])
+    samp["eccentricity"] = ecc
+    om_best = float(np.degrees(np.arctan2(pv["esinw"], pv["ecosw"])) % 360)
+    om = np.degrees(np.arctan2(samp["esinw"], samp["ecosw"]))
+    samp["omega"] = om_best + (om - om_best + 180) % 360 - 180     # unwrapped around the best value
+    ecc_c = np.clip(ecc, 0, 0.999)
+    samp["mass_function"] = _mass_function(samp["period"], samp["k_primary"], ecc_c)
+    samp["a1_sin_i"] = _asini(samp["period"], samp["k_primary"], 0.0, ecc_c)
+    if double:
+        samp["mass_ratio"] = samp["k_primary"] / k2s
+        m1s, m2s = _minimum_masses(samp["period"], samp["k_primary"], k2s, ecc_c)
+        samp["mass_primary_sin3i"], samp["mass_secondary_sin3i"] = m1s, m2s
+        samp["a_sin_i"] = _asini(samp["period"], samp["k_primary"], k2s, ecc_c)
+
+    # best-fit values (derived ones from the best fit), errors from the fit or the samples
+    e_best = float(np.hypot(pv["ecosw"], pv["esinw"]))
+    values = {"k_primary": pv["k_primary"], "k_secondary": pv.get("k_secondary", np.nan),
+              "gamma": pv["gamma"], "gamma_offset": pv.get("gamma_offset", 0.0),
+              "ecosw": pv["ecosw"], "esinw": pv["esinw"], "eccentricity": e_best, "omega": om_best,
+              "mass_function": _mass_function(pv["period"], pv["k_primary"], e_best),
+              "a1_sin_i": _asini(pv["period"], pv["k_primary"], 0.0, e_best)}
+    if double:
+        values["mass_ratio"] = pv["k_primary"] / pv["k_secondary"]
+        m1s, m2s = _minimum_masses(pv["period"], pv["k_primary"], pv["k_secondary"], e_best)
+        values.update(mass_primary_sin3i=float(m1s), mass_secondary_sin3i=float(m2s),
+                      a_sin_i=_asini(pv["period"], pv["k_primary"], pv["k_secondary"], e_best))
+    else:
+        values["mass_ratio"] = np.nan
+    values.update(jitter_primary=jit_val["primary"], jitter_secondary=jit_val["secondary"],
+                  period=pv["period"], t0=t0_best)
+    values = {k: float(v) for k, v in values.items()}
+
+    uncert: dict[str, float | None] = {}
+    free_names = {"t0": "t0_offset"}
+    for k in values:
+        src = free_names.get(k, k)
+        if k.startswith("jitter_"):
+            uncert[k] = jit_err[k.split("_")[1]]
+        elif src in var_names:
+            uncert[k] = stderr.get(src)
+        elif k in ("eccentricity", "omega", "mass_function", "a1_sin_i", "mass_ratio", "mass_primary_sin3i",
+                   "mass_secondary_sin3i", "a_sin_i") and covar is not None and np.isfinite(values[k]):
+            sd = float(np.std(samp[k]))
+            uncert[k] = sd if sd > 1e-12 * max(abs(values[k]), 1e-12) else None  # None: fixed
+        else:
+            uncert[k] = None
+    if uncert.get("omega") is not None and e_best < (uncert.get("eccentricity") or 0):
+        warn("e is smaller than its uncertainty: omega is undefined")
+    samples = {k: np.asarray(samp[k], float) for k in values if k in samp}
+    samples["t0"] = samp["t0"]
+
+    # --- residuals, rms, chi-square ----------------------------------------------------------------
+    mod1, mod2 = model_at(pv)
+    res1 = np.where(m1, rv1 - mod1, np.nan)
+    res2 = np.where(m2, rv2 - mod2, np.nan)
+    rms1 = float(np.sqrt(np.mean(res1[m1] ** 2)))
+    rms2 = float(np.sqrt(np.mean(res2[m2] ** 2))) if double else float("nan")
+    chisqr = float(np.sum(res1[m1] ** 2 / (e1[m1] ** 2 + jit_val["primary"] ** 2)))
+    if double:
+        chisqr += float(np.sum(res2[m2] ** 2 / (e2[m2] ** 2 + jit_val["secondary"] ** 2)))
+    for name, mu, sig in priors:
+        x = t0_best if name == "t0" else pv[name]
+        chisqr += ((x - mu) / sig) ** 2
+    dof = n_data + n_prior - n_free
+    redchi = chisqr / dof if dof > 0 else float("nan")
+    if not jitter:
+        for star, s in scale.items():
+            if s > 1.5:
+                warn(f"the {star}'s velocity scatter is {s:.2f}x its quoted errors; errors were scaled "
+                     f"(consider jitter=True)")
+
+    # --- coverage checks -----------------------------------------------------------------------------
+    phase = np.sort(((time[m1] - t0_best) / pv["period"]) % 1.0)
+    gaps = np.diff(np.concatenate([phase, phase[:1] + 1]))
+    if gaps.size and gaps.max() > 0.5:
+        warn(f"the primary's velocities leave a phase gap of {gaps.max():.2f}; K and e are poorly constrained")
+    if double and n2 < 3:
+        warn(f"only {n2} secondary velocities: K2 rests on very few points")
+    if not double:
+        notes.append("single-lined: K1 and the mass function only; masses need the secondary's velocities")
+
+    free = [("t0" if n == "t0_offset" else n) for n in var_names]
+    if jitter:
+        free += [n for n in ("jitter_primary", "jitter_secondary") if n in params]
+    return OrbitFit(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
+                    samples=samples, free=free, rv=rv, residuals_primary=res1, residuals_secondary=res2,
+                    rms_primary=rms1, rms_secondary=rms2, error_scale_primary=scale["primary"],
+                    error_scale_secondary=scale["secondary"], chisqr=chisqr, redchi=float(redchi),
+                    n_free=n_free, n_data=n_data, double_lined=double, jitter=bool(jitter),
+                    separate_gamma=bool(separate_gamma), success=success, message=message,
+                    warnings=notes, lmfit_result=result, inclination=incl)
