@@ -5,6 +5,11 @@ Keplerian orbit, and combine with radial velocities into absolute masses and rad
 """
 
 from .errors import EclipsekitError, EclipsekitWarning, FitError, GeometryError, InputError, NoEclipseFound
-from .data import LightCurve, VelocityCurve, magnitudes_to_flux, read_light_curve, read_velocities
+from .data import LightCurve, VelocityCurve, magnitudes_to_flux, read_light_curve, read_velocities, sample_paths
+from .orbit import (conjunction_times, radial_velocities, secondary_phase, sky_separation, solve_kepler,
+                    true_anomaly)
+from .eclipse import eclipse_properties, light_ratio, model_flux, occulted_fraction
+from .spectroscopy import OrbitFit, fit_velocities
+from .dimensions import AbsoluteDimensions, absolute_dimensions
 
 __version__ = "0.1.0"

@@ -63,6 +63,10 @@ SECTIONS: dict[str, dict[str, str]] = {
 }
 
 
+#: Optional model terms, reported only when they were fitted.
+_ONLY_WHEN_FITTED = {"gamma_offset", "jitter_primary", "jitter_secondary"}
+
+
 def _finite_or_none(x: Any) -> float | None:
     if x is None:
         return None
@@ -92,7 +96,10 @@ def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]
             continue
         values = getattr(src, "values", {}) or {}
         uncs = getattr(src, "uncertainties", {}) or {}
+        free = getattr(src, "free", None)
         for name, unit in names.items():
+            if name in _ONLY_WHEN_FITTED and free is not None and name not in free:
+                continue
             # fit statistics such as rms_primary are attributes rather than fitted values
             value = values.get(name, getattr(src, name, None))
             if _finite_or_none(value) is not None:

@@ -20,12 +20,14 @@ _LABELS = {
     "k_primary": "K1", "k_secondary": "K2", "gamma": "Systemic velocity", "gamma_offset": "gamma2 - gamma1",
     "mass_ratio": "Mass ratio q = M2/M1", "mass_function": "Mass function", "rms_primary": "rms primary",
     "rms_secondary": "rms secondary", "jitter_primary": "Jitter primary", "jitter_secondary": "Jitter secondary",
-    "a": "Semi-major axis", "mass_primary": "M1", "mass_secondary": "M2", "radius_primary": "R1",
+    "a": "Semi-major axis", "mass_sum": "M1 + M2", "mass_primary": "M1", "mass_secondary": "M2", "radius_primary": "R1",
     "radius_secondary": "R2", "logg_primary": "log g1 (cgs)", "logg_secondary": "log g2 (cgs)",
     "density_primary": "Mean density 1", "density_secondary": "Mean density 2",
     "vsync_primary": "v_sync 1", "vsync_secondary": "v_sync 2", "luminosity_primary": "L1",
     "luminosity_secondary": "L2", "mbol_primary": "M_bol 1", "mbol_secondary": "M_bol 2", "distance": "Distance",
 }
+
+_BUDGET_SHOWN = ("mass_primary", "mass_secondary", "radius_primary", "radius_secondary")
 
 _TITLES = {
     "ephemeris": "Ephemeris", "geometry": "Geometry", "photometry": "Photometry",
@@ -78,7 +80,10 @@ def format_summary(result: Mapping[str, Any]) -> str:
             lines.append(f"  {label:<30s} {format_value(q.get('value'), q.get('uncertainty')):>28s} {unit}")
         budget = block.get("uncertainty_budget") if isinstance(block, dict) else None
         if budget:
-            lines.append("  Dominant uncertainty: " + "; ".join(f"{v}" for v in budget.values()))
+            lines.append("  Where the uncertainty comes from:")
+            for name in _BUDGET_SHOWN:
+                if budget.get(name):
+                    lines.append(f"    {_LABELS.get(name, name) + ':':<8s} {budget[name]}")
     fit = result.get("fit") or {}
     if "reduced_chi_square" in fit:
         lines.append("")
