@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 from matplotlib.figure import Figure
+from matplotlib.ticker import FuncFormatter, LogLocator
 
 __all__ = [
     "PALETTE",
@@ -47,6 +48,14 @@ def _figure(height: float, width: float = _COLUMN) -> Figure:
     return Figure(figsize=(width, height), layout="constrained")
 
 
+def _plain_log_axis(axis: Any) -> None:
+    """Label a logarithmic axis with plain numbers (0.5, 1, 2, ...) rather than powers of ten."""
+    fmt = FuncFormatter(lambda x, _: f"{x:g}")
+    axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
+    axis.set_major_formatter(fmt)
+    axis.set_minor_formatter(FuncFormatter(lambda x, _: ""))
+
+
 def _binned(x: np.ndarray, y: np.ndarray, n_bins: int, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
     """Mean of ``y`` in equal bins of ``x`` over [lo, hi] (empty bins dropped)."""
     edges = np.linspace(lo, hi, n_bins + 1)
@@ -70,14 +79,16 @@ def plot_periodograms(search: Any, lc: Any = None) -> Figure:
     ax2.sharex(ax1)
     if getattr(search, "bls_periods", None) is not None and len(search.bls_periods):
         order = np.argsort(search.bls_periods)
-        ax1.plot(search.bls_periods[order], search.bls_power[order], color=PALETTE["blue"], lw=0.6)
-    ax1.set_ylabel("BLS power")
+        power = search.bls_power[order] / np.nanmax(search.bls_power)
+        ax1.plot(search.bls_periods[order], power, color=PALETTE["blue"], lw=0.6)
+    ax1.set_ylabel("BLS power (normalised)")
     if getattr(search, "pdm_periods", None) is not None and len(search.pdm_periods):
         order = np.argsort(search.pdm_periods)
         ax2.plot(search.pdm_periods[order], search.pdm_theta[order], color=PALETTE["green"], lw=0.6)
     ax2.set_ylabel(r"PDM $\theta$")
     ax2.set_xlabel("Trial period (d)")
     ax1.set_xscale("log")
+    _plain_log_axis(ax2.xaxis)
     period = getattr(search, "period", None)
     if period is not None and np.isfinite(period):
         for ax in (ax1, ax2):
@@ -239,6 +250,8 @@ def plot_mass_radius_luminosity(dimensions: Any) -> Figure:
                         label=star.capitalize())
         ax.set_xscale("log")
         ax.set_yscale("log")
+        _plain_log_axis(ax.xaxis)
+        _plain_log_axis(ax.yaxis)
         ax.set_xlabel("Mass (M$_\\odot$)")
         ax.set_ylabel(label)
     axes[0].legend(loc="upper left", frameon=False)

@@ -89,7 +89,7 @@ def test_period_command_json_and_plot(tmp_path, capsys):
     assert main(["period", str(lc), "--json", "--plot", str(png), "--quiet", "--max-period", "10"]) == 0
     out = json.loads(capsys.readouterr().out)
     # sample made with P = 3.2418127 d (samples/truth.json); a 27-day sector pins P to ~1e-4 d
-    assert abs(out["period"] - truth["period"]) < 1e-3
+    assert abs(out["period"]["value"] - truth["period"]) < 1e-3
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
 

@@ -28,7 +28,7 @@ def run_dir(tmp_path_factory):
     proc = subprocess.run(
         [sys.executable, "-m", "eclipsekit.cli", "run", str(lc), "--rv", str(rv),
          "--teff1", f"{TRUTH['teff_primary']}±150", "--teff2", f"{TRUTH['teff_secondary']}±150",
-         "--out", str(out), "--quiet", "--seed", "3"],
+         "--free", "ld1_1", "ld2_1", "--out", str(out), "--quiet", "--seed", "3"],
         capture_output=True, text=True, timeout=600)
     assert proc.returncode == 0, proc.stderr
     return out, proc
@@ -84,7 +84,11 @@ def test_recovers_sample_truth(run_dir, section, name):
     result = json.loads((out / "result.json").read_text())
     value, err = _q(result, section, name)
     assert err is not None and err > 0
-    assert abs(value - TRUTH[name]) < 3 * err, (name, value, err, TRUTH[name])
+    truth = TRUTH[name]
+    if name == "t0":
+        # any primary minimum is a valid epoch (the fit reports one near the middle of the data)
+        truth += round((value - truth) / TRUTH["period"]) * TRUTH["period"]
+    assert abs(value - truth) < 3 * err, (name, value, err, truth)
 
 
 def test_masses_against_standard_formula(run_dir):
