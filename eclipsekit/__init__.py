@@ -9,7 +9,9 @@ from .data import LightCurve, VelocityCurve, magnitudes_to_flux, read_light_curv
 from .orbit import (conjunction_times, radial_velocities, secondary_phase, sky_separation, solve_kepler,
                     true_anomaly)
 from .eclipse import eclipse_properties, light_ratio, model_flux, occulted_fraction
+from .period import PeriodSearch, find_period
 from .spectroscopy import OrbitFit, fit_velocities
 from .dimensions import AbsoluteDimensions, absolute_dimensions
+from .pipeline import Analysis, analyse
 
 __version__ = "0.1.0"

@@ -71,7 +71,9 @@ def _binned(x: np.ndarray, y: np.ndarray, n_bins: int, lo: float, hi: float) -> 
 def plot_periodograms(search: Any, lc: Any = None) -> Figure:
     """Box-least-squares power and PDM θ against trial period, with the chosen period marked.
 
-    With the light curve ``lc``, a third panel shows it folded on the chosen period.
+    With the light curve ``lc``, a third panel shows it folded on the chosen period (or
+    against time when no eclipse was found).  A dotted line marks the other reading of
+    an ambiguous search (``alternative_period``).
     """
     fig = _figure(4.6 if lc is not None else 3.3)
     axes = fig.subplots(3 if lc is not None else 2, 1)
@@ -90,19 +92,29 @@ def plot_periodograms(search: Any, lc: Any = None) -> Figure:
     ax1.set_xscale("log")
     _plain_log_axis(ax2.xaxis)
     period = getattr(search, "period", None)
-    if period is not None and np.isfinite(period):
+    found = getattr(search, "found", True) and period is not None and np.isfinite(period)
+    if found:
         for ax in (ax1, ax2):
             ax.axvline(period, color=PALETTE["vermillion"], lw=0.8, ls="--", zorder=0)
+            alternative = getattr(search, "alternative_period", None)
+            if alternative is not None and np.isfinite(alternative):
+                ax.axvline(alternative, color=PALETTE["sky"], lw=0.8, ls=":", zorder=0)
         ax1.set_title(f"Chosen period {period:.6f} d", loc="left")
-        if lc is not None:
-            ax3 = axes[2]
+    else:
+        ax1.set_title("No significant periodic eclipse", loc="left")
+    if lc is not None:
+        ax3 = axes[2]
+        if found:
             phase = _phase(lc.time, period, search.t0)
             ax3.plot(phase, lc.flux, ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True)
             bx, by = _binned(phase, lc.flux, 400, -0.25, 0.75)
             ax3.plot(bx, by, ".", ms=2.0, color=PALETTE["blue"])
             ax3.set_xlim(-0.25, 0.75)
             ax3.set_xlabel("Orbital phase")
-            ax3.set_ylabel("Relative flux")
+        else:
+            ax3.plot(lc.time, lc.flux, ".", ms=1.0, color=_DATA, rasterized=True)
+            ax3.set_xlabel("Time (d)")
+        ax3.set_ylabel("Relative flux")
     return fig
 
 

@@ -130,3 +130,58 @@ def test_demo_refuses_nonempty_output(tmp_path, capsys):
     assert main(["demo", "--out", str(tmp_path), "--quiet"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--overwrite" in err[0]
+
+
+# -- the Python API ----------------------------------------------------------------------
+@pytest.fixture(scope="module")
+def analysis():
+    from eclipsekit.pipeline import analyse
+
+    lc, rv = sample_paths()
+    return analyse(lc, rv, free=("ld1_1", "ld2_1"), progress=False, seed=4)
+
+
+def test_api_matches_design(analysis):
+    import eclipsekit as ek
+
+    # ../shared/DESIGN.md: the public names users rely on
+    for name in ("read_light_curve", "find_period", "fit_eclipses", "read_velocities", "fit_velocities",
+                 "absolute_dimensions", "model_flux", "analyse"):
+        assert callable(getattr(ek, name)), name
+    assert analysis.status == "ok"
+    assert set(analysis.timings) >= {"read", "period search", "eclipse fit", "velocity fit", "absolute dimensions"}
+    figures = analysis.plot()
+    assert set(figures) == set(FIGURES)
+
+
+def test_interrupted_write_leaves_no_result_json(analysis, tmp_path, monkeypatch):
+    import eclipsekit.plots as plots
+
+    calls = {"n": 0}
+    real = plots.save_figure
+
+    def failing_save(*args, **kwargs):
+        calls["n"] += 1
+        if calls["n"] == 2:
+            raise KeyboardInterrupt  # the user presses Ctrl-C while figures are written
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(plots, "save_figure", failing_save)
+    out = tmp_path / "out"
+    with pytest.raises(KeyboardInterrupt):
+        analysis.write(out)
+    assert not (out / "result.json").exists()
+    assert not list(out.glob("*.part")) and not list(out.glob(".*.part"))
+    # what was written before the interruption is complete and readable
+    Table.read(out / "parameters.ecsv", format="ascii.ecsv")
+
+
+def test_long_cadence_without_exposure_warns():
+    from eclipsekit.data import read_light_curve
+    from eclipsekit.pipeline import analyse
+
+    lc_path, _ = sample_paths()
+    lc = read_light_curve(lc_path)
+    sparse = type(lc)(lc.time[::15], lc.flux[::15], lc.flux_err[::15], meta=lc.meta)  # 30-minute cadence
+    result = analyse(sparse, period=TRUTH["period"], t0=TRUTH["t0"], progress=False)
+    assert any("smeared" in w for w in result.warnings)

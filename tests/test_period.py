@@ -1,0 +1,319 @@
+"""Tests of the period search (eclipsekit.period, eclipsekit._pdm, eclipsekit._grid).
+
+Synthetic binaries come from the package's eclipse model (eclipsekit.eclipse.model_flux)
+and, independently of the package, from trapezoid eclipses built in this file.
+Data sizes are small so that the whole file runs in well under a minute.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from astropy import units as u
+from astropy.timeseries import BoxLeastSquares
+from numpy.testing import assert_allclose, assert_array_equal
+
+from eclipsekit import period as period_module
+from eclipsekit._grid import Q0, bin_in_time, frequency_grid, min_duty_cycle, trial_durations
+from eclipsekit._pdm import pdm_theta, pdm_theta_direct
+from eclipsekit.data import LightCurve
+from eclipsekit.eclipse import model_flux
+from eclipsekit.errors import InputError, NoEclipseFound
+from eclipsekit.period import PeriodSearch, _bls_power_threaded, find_period
+
+
+# ------------------------------------------------------------------------------------
+# synthetic data
+# ------------------------------------------------------------------------------------
+def _trapezoid_dip(time, period, t0, depth, duration, ingress_fraction=0.3, phase=0.0):
+    """Independent trapezoid eclipse: full depth inside, linear ingress/egress, 0 outside."""
+    x = (np.mod((time - t0) / period - phase + 0.5, 1.0) - 0.5) * period
+    half = duration / 2
+    return depth * np.clip((half - np.abs(x)) / (ingress_fraction * half), 0.0, 1.0)
+
+
+def _uniform_times(rng, n, baseline):
+    return np.sort(rng.uniform(0.0, baseline, n))
+
+
+def _nightly_times(rng, n_nights, per_night, night_length=0.3):
+    """Ground-based sampling: one observing window of ``night_length`` d per calendar day."""
+    return np.concatenate([k + 0.1 + np.sort(rng.uniform(0, night_length, per_night)) for k in range(n_nights)])
+
+
+def _lc(time, flux, sigma, rng):
+    flux = flux + rng.normal(0.0, sigma, time.size)
+    return LightCurve(time, flux, np.full(time.size, sigma))
+
+
+MODEL = dict(radius_sum=0.2, radius_ratio=0.8, inclination=88.0, surface_brightness_ratio=0.6)
+
+
+def _assert_period(result: PeriodSearch, period: float, t0: float, t0_cycle: float | None = None):
+    """True period within 3σ of the result (99.7% for Gaussian errors), t0 likewise (mod ``t0_cycle``)."""
+    assert result.period_err > 0
+    assert abs(result.period - period) < 3 * result.period_err, (result.period, result.period_err, period)
+    cycle = period if t0_cycle is None else t0_cycle
+    n = round((result.t0 - t0) / cycle)
+    dt = result.t0 - (t0 + n * cycle)
+    tol = 3 * math.hypot(result.t0_err, abs(n) * result.period_err)
+    assert abs(dt) < tol, (result.t0, result.t0_err, t0 + n * period)
+
+
+# ------------------------------------------------------------------------------------
+# PDM kernel
+# ------------------------------------------------------------------------------------
+@pytest.mark.parametrize("n_bins,n_covers", [(10, 2), (37, 3), (8, 1)])
+def test_pdm_kernel_equals_brute_force(n_bins, n_covers):
+    # Stellingwerf 1978, ApJ 224, 953, eqs. (1)-(3): vectorised kernel against the direct
+    # per-period, per-bin computation (brute-force twin) to 1e-12.
+    rng = np.random.default_rng(4)
+    t = np.sort(rng.uniform(0, 30, 1500))
+    y = 1 + 0.1 * np.sin(2 * np.pi * t / 1.7) + rng.normal(0, 0.05, t.size)
+    freqs = np.concatenate([[1 / 1.7], rng.uniform(0.05, 3, 40)])
+    fast = pdm_theta(t, y, freqs, n_bins=n_bins, n_covers=n_covers, block_elements=7000)  # several blocks
+    slow = np.array([pdm_theta_direct(t, y, 1 / f, n_bins=n_bins, n_covers=n_covers) for f in freqs])
+    assert_allclose(fast, slow, rtol=1e-12, atol=0)
+
+
+def test_pdm_theta_for_a_sinusoid():
+    # Stellingwerf 1978: for a sinusoid of amplitude A in Gaussian noise σ, θ at the true
+    # period -> σ²/(σ² + A²/2) (the signal variance is A²/2), and θ -> 1 far from it.
+    rng = np.random.default_rng(11)
+    n, amp, sigma, period = 6000, 0.1, 0.05, 1.7
+    t = np.sort(rng.uniform(0, 40, n))
+    y = amp * np.sin(2 * np.pi * t / period) + rng.normal(0, sigma, n)
+    n_bins = 20
+    theta_true = pdm_theta(t, y, np.array([1 / period]), n_bins=n_bins, n_covers=2)[0]
+    expected = sigma ** 2 / (sigma ** 2 + amp ** 2 / 2)
+    # within a bin of width 1/n_bins the sinusoid still varies: extra variance A²/2 (π/n_bins)²/3
+    # (variance of a uniform spread of width 2π/n_bins in phase); statistical error of θ ~ sqrt(2/n)
+    smear = (amp ** 2 / 2) * (np.pi / n_bins) ** 2 / 3 / (sigma ** 2 + amp ** 2 / 2)
+    assert abs(theta_true - expected - smear) < 4 * math.sqrt(2 / n) * expected
+    far = pdm_theta(t, y, np.array([1 / 0.8123, 1 / 5.377]), n_bins=n_bins, n_covers=2)
+    # θ's noise away from any period ~ sqrt(2 M / n) for M bins (Stellingwerf 1978, §III)
+    assert np.all(np.abs(far - 1) < 4 * math.sqrt(2 * 2 * n_bins / n))
+
+
+# ------------------------------------------------------------------------------------
+# grid and box least squares
+# ------------------------------------------------------------------------------------
+def test_bls_power_equals_astropy():
+    # reference library: astropy BoxLeastSquares on the same data, grid and durations; the
+    # chunked, threaded wrapper must give the same periodogram and the same peak.
+    rng = np.random.default_rng(5)
+    t = _uniform_times(rng, 2000, 20)
+    flux = 1 - _trapezoid_dip(t, 2.7, 0.4, 0.05, 0.15)
+    lc = _lc(t, flux, 0.003, rng)
+    periods = 1 / frequency_grid(0.5, 8.0, lc.baseline, 5)
+    durations = trial_durations(0.5, 8.0)
+    ours, _ = _bls_power_threaded(lc.time, lc.flux, lc.flux_err, periods, durations, n_jobs=2, chunk=300)
+    ref = BoxLeastSquares(lc.time, lc.flux, lc.flux_err).power(periods, durations, objective="snr",
+                                                               method="fast", oversample=4)
+    # our power is astropy's depth S/N squared over 2 (Δ log-likelihood)
+    assert_allclose(ours, 0.5 * np.asarray(ref.power) ** 2, rtol=1e-12)
+    assert periods[np.argmax(ours)] == periods[np.argmax(ref.power)]
+
+
+def test_grid_step_keeps_phase_drift_below_eclipse_width():
+    # grid criterion (common practice for box searches): neighbouring trial frequencies
+    # differ by at most q_min(P) / (oversample * baseline)
+    baseline, oversample = 80.0, 5.0
+    f = frequency_grid(0.25, 40.0, baseline, oversample)
+    df = np.diff(f)
+    allowed = min_duty_cycle(1 / f[1:]) / (oversample * baseline)
+    assert np.all(df <= allowed * (1 + 1e-9))
+    assert f[0] == pytest.approx(1 / 40.0) and f[-1] == pytest.approx(1 / 0.25)
+
+
+def test_narrow_injected_eclipse_recovered_with_our_grid():
+    # An eclipse exactly as narrow as the grid is built for (duty cycle q_min(P)), at a
+    # period half-way between two grid points (worst case), is found by the coarse pass
+    # (binned data, our grid and durations) within one grid step.
+    rng = np.random.default_rng(6)
+    baseline, oversample = 30.0, 5.0
+    freq = frequency_grid(0.5, 10.0, baseline, oversample)
+    i = int(np.searchsorted(freq, 1 / 4.1))
+    f_true = 0.5 * (freq[i] + freq[i + 1])
+    period = 1 / f_true
+    duration = float(min_duty_cycle(period)) * period  # Q0 * P^(1/3)
+    t = _uniform_times(rng, 6000, baseline)
+    flux = 1 - _trapezoid_dip(t, period, 1.3, 0.02, duration, ingress_fraction=0.05)
+    lc = _lc(t, flux, 0.002, rng)
+    bands = period_module._make_bands(lc.time - lc.time[0], lc.flux, lc.flux_err, freq)
+    power, _, _ = period_module._periodograms(bands, freq, do_bls=True, do_pdm=False, n_jobs=2, progress=False)
+    k = int(np.argmax(power))
+    assert abs(k - i - 0.5) <= 1.5
+    assert duration == pytest.approx(Q0 * period ** (1 / 3))
+
+
+def test_bin_in_time_keeps_weighted_means():
+    # inverse-variance weighted mean and its error 1/sqrt(Σw) (common practice)
+    t = np.array([0.0, 0.1, 0.2, 1.0, 1.1])
+    y = np.array([1.0, 2.0, 3.0, 4.0, 6.0])
+    e = np.array([1.0, 1.0, 2.0, 1.0, 1.0])
+    tb, yb, eb = bin_in_time(t, y, e, 0.5)
+    w = 1 / e[:3] ** 2
+    assert_allclose(yb, [np.dot(w, y[:3]) / w.sum(), 5.0])
+    assert_allclose(eb, [1 / math.sqrt(w.sum()), 1 / math.sqrt(2)])
+    assert_allclose(tb, [np.dot(w, t[:3]) / w.sum(), 1.05])
+
+
+# ------------------------------------------------------------------------------------
+# eclipsing binaries
+# ------------------------------------------------------------------------------------
+def test_unequal_eclipses_model():
+    # (a) unequal eclipses, package model; secondary of a circular orbit at phase 0.5
+    rng = np.random.default_rng(21)
+    t = _uniform_times(rng, 3000, 20)
+    p, t0 = 2.3456, 0.8
+    lc = _lc(t, model_flux(t, period=p, t0=t0, **MODEL), 0.003, rng)
+    res = find_period(lc, progress=False)
+    _assert_period(res, p, t0)
+    assert res.secondary_detected
+    assert res.depth_primary > res.depth_secondary > 0
+    assert abs(res.phase_secondary - 0.5) < 0.01  # circular orbit: exactly 0.5 (common practice)
+    assert "secondary eclipse at phase" in res.reasoning
+
+
+@pytest.mark.parametrize("generator", ["model", "trapezoid"])
+def test_equal_twin_eclipses_do_not_give_half_period(generator):
+    # (b) identical stars on a circular orbit: both eclipses equal, at phases 0 and 0.5.
+    # The fold at P/2 puts them on top of each other; the period must still be P.
+    rng = np.random.default_rng(22)
+    t = _uniform_times(rng, 3000, 25)
+    p, t0 = 3.1, 1.1
+    if generator == "model":
+        flux = model_flux(t, period=p, t0=t0, radius_sum=0.18, radius_ratio=1.0, inclination=89.0,
+                          surface_brightness_ratio=1.0)
+    else:  # independent of the package
+        flux = 1 - _trapezoid_dip(t, p, t0, 0.2, 0.2) - _trapezoid_dip(t, p, t0, 0.2, 0.2, phase=0.5)
+    lc = _lc(t, flux, 0.003, rng)
+    res = find_period(lc, progress=False)
+    _assert_period(res, p, t0, t0_cycle=p / 2)  # equal eclipses: either may be called primary
+    assert res.secondary_detected
+    assert res.depth_secondary == pytest.approx(res.depth_primary, rel=0.05)
+    assert res.ambiguous and res.alternative_period == pytest.approx(p / 2, rel=1e-3)
+
+
+def test_eccentric_orbit_secondary_at_062():
+    # (c) e = 0.2, omega = 0: secondary displaced to phase ≈ 0.5 + (2/π) e cos ω = 0.627 at
+    # first order in e (Sterne 1939, PNAS 25, 297)
+    rng = np.random.default_rng(23)
+    t = _uniform_times(rng, 3000, 20)
+    p, t0, e = 2.8, 0.3, 0.2
+    lc = _lc(t, model_flux(t, period=p, t0=t0, radius_sum=0.15, radius_ratio=0.9, inclination=89.5,
+                           surface_brightness_ratio=0.7, ecosw=e, esinw=0.0), 0.003, rng)
+    res = find_period(lc, progress=False)
+    _assert_period(res, p, t0)
+    assert res.secondary_detected
+    # first-order formula error is O(e^3) ~ 0.01 in phase for e = 0.2
+    assert abs(res.phase_secondary - (0.5 + 2 / np.pi * e)) < 0.015
+
+
+def test_nightly_sampling_period_near_one_day_not_aliased():
+    # (d) ground-based: 100 nights of 7 h, P near 1 d.  Daily sampling makes |1/P ± n| aliases
+    # (common practice); the period must not be one of them.
+    rng = np.random.default_rng(24)
+    t = _nightly_times(rng, 100, 40)
+    p, t0 = 1.0737, 0.15
+    lc = _lc(t, model_flux(t, period=p, t0=t0, **MODEL), 0.004, rng)
+    res = find_period(lc, progress=False, max_period=10)
+    assert res.daily_window
+    _assert_period(res, p, t0)
+    for n in (-2, -1, 1, 2):
+        f_alias = 1 / p + n
+        if f_alias > 0:
+            assert abs(res.period - 1 / f_alias) > 0.01
+
+
+def test_long_period_three_eclipses():
+    # (e) P = 9 d over 24 d: three primary eclipses (t = 2, 11, 20), a faint secondary
+    rng = np.random.default_rng(25)
+    t = _uniform_times(rng, 2500, 24)
+    p, t0 = 9.0, 2.0
+    lc = _lc(t, model_flux(t, period=p, t0=t0, radius_sum=0.06, radius_ratio=0.5, inclination=89.8,
+                           surface_brightness_ratio=0.05), 0.002, rng)
+    res = find_period(lc, progress=False)
+    _assert_period(res, p, t0)
+    assert res.n_eclipses_primary == 3
+
+
+def test_pdm_only_finds_unequal_binary():
+    # PDM alone (Stellingwerf 1978) proposes the candidates; same decision logic
+    rng = np.random.default_rng(26)
+    t = _uniform_times(rng, 3000, 20)
+    p, t0 = 1.9, 0.5
+    lc = _lc(t, 1 - _trapezoid_dip(t, p, t0, 0.15, 0.16) - _trapezoid_dip(t, p, t0, 0.05, 0.16, phase=0.5),
+             0.003, rng)
+    res = find_period(lc, method="pdm", progress=False)
+    _assert_period(res, p, t0)
+
+
+# ------------------------------------------------------------------------------------
+# no eclipse
+# ------------------------------------------------------------------------------------
+def test_pure_noise_gives_no_eclipse():
+    # white noise has no periodic eclipse: SDE below the calibrated threshold
+    rng = np.random.default_rng(31)
+    t = _uniform_times(rng, 3000, 20)
+    lc = _lc(t, np.ones_like(t), 0.003, rng)
+    with pytest.raises(NoEclipseFound) as info:
+        find_period(lc, progress=False)
+    search = info.value.search
+    assert isinstance(search, PeriodSearch) and not search.found
+    assert search.bls_power.size == search.bls_periods.size > 0
+    json.dumps(search.to_dict())
+
+
+def test_spot_modulation_gives_no_eclipse(monkeypatch):
+    # smooth sinusoidal spot modulation (semi-amplitude 1%, P = 3.3 d) is periodic but not an
+    # eclipse.  With the periodogram threshold disabled, the eclipse-shape test alone must reject it.
+    rng = np.random.default_rng(32)
+    t = _uniform_times(rng, 3000, 20)
+    flux = 1 + 0.01 * np.sin(2 * np.pi * t / 3.3) + 0.003 * np.sin(4 * np.pi * t / 3.3 + 1)
+    lc = _lc(t, flux, 0.002, rng)
+    with pytest.raises(NoEclipseFound):
+        find_period(lc, progress=False)
+    monkeypatch.setattr(period_module, "SDE_THRESHOLD", 0.0)
+    with pytest.raises(NoEclipseFound, match="smooth modulation"):
+        find_period(lc, progress=False)
+
+
+# ------------------------------------------------------------------------------------
+# interface
+# ------------------------------------------------------------------------------------
+def test_result_object_and_quantities():
+    rng = np.random.default_rng(41)
+    t = _uniform_times(rng, 2000, 15)
+    p, t0 = 1.6, 0.2
+    lc = _lc(t, 1 - _trapezoid_dip(t, p, t0, 0.1, 0.12) - _trapezoid_dip(t, p, t0, 0.04, 0.12, phase=0.5),
+             0.002, rng)
+    res = find_period(lc, min_period=0.5 * u.day, max_period=12 * u.hour * 10, progress=False, n_jobs=1)
+    _assert_period(res, p, t0)
+    d = json.loads(json.dumps(res.to_dict(include_periodograms=True)))
+    assert d["status"] == "ok" and d["period"]["unit"] == "d"
+    assert d["period"]["value"] == pytest.approx(res.period)
+    assert f"{res.period:.6f}" in res.summary()
+    assert res.candidates["chosen"].sum() == 1
+    assert np.all(np.diff(res.bls_periods) > 0)
+    assert res.max_period == pytest.approx(5.0)
+
+
+@pytest.mark.parametrize("kwargs,match", [
+    ({"method": "lomb"}, "`method`"),
+    ({"max_period": 100.0}, "`max_period`"),
+    ({"min_period": 5.0, "max_period": 2.0}, "`min_period`"),
+    ({"min_period": -1.0}, "`min_period`"),
+    ({"oversample": 0.5}, "`oversample`"),
+    ({"min_period": 3 * u.kg}, "`min_period`"),
+])
+def test_bad_arguments(kwargs, match):
+    rng = np.random.default_rng(42)
+    t = _uniform_times(rng, 200, 10)
+    lc = _lc(t, np.ones_like(t), 0.01, rng)
+    with pytest.raises(InputError, match=match):
+        find_period(lc, progress=False, **kwargs)
