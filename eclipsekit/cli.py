@@ -261,24 +261,20 @@ def build_parser() -> argparse.ArgumentParser:
     _common(p)
     p.set_defaults(func=_cmd_period)
 
-    p = sub.add_parser("fit", help="find the period and fit both eclipses; write the results")
-    p.add_argument("file", help="light-curve file")
-    _reader_options(p)
-    _period_options(p)
-    _fit_options(p)
-    _output_options(p, "eclipsekit-results")
-    _common(p)
-    p.set_defaults(func=_cmd_analyse)
-
-    p = sub.add_parser("run", help="the whole job: period, eclipse fit, velocities, absolute dimensions, files")
-    p.add_argument("file", help="light-curve file")
-    _reader_options(p)
-    _period_options(p)
-    _fit_options(p)
-    _dimension_options(p)
-    _output_options(p, "eclipsekit-results")
-    _common(p)
-    p.set_defaults(func=_cmd_analyse)
+    # `run` is `fit` plus the spectroscopy and absolute-dimension options
+    for name, help_text, with_dimensions in (
+            ("fit", "find the period and fit both eclipses; write the results", False),
+            ("run", "the whole job: period, eclipse fit, velocities, absolute dimensions, files", True)):
+        p = sub.add_parser(name, help=help_text)
+        p.add_argument("file", help="light-curve file")
+        _reader_options(p)
+        _period_options(p)
+        _fit_options(p)
+        if with_dimensions:
+            _dimension_options(p)
+        _output_options(p, "eclipsekit-results")
+        _common(p)
+        p.set_defaults(func=_cmd_analyse)
 
     p = sub.add_parser("dimensions", help="masses, radii, gravities (and luminosities) from a result.json")
     p.add_argument("result", help="result.json written by `eclipsekit fit` or `run`")

@@ -52,8 +52,34 @@ def _rejections_merge(old: dict[str, np.ndarray], reason: str, rows: np.ndarray)
     return new
 
 
+class _Series:
+    """What :class:`LightCurve` and :class:`VelocityCurve` share: length, span, rejection record.
+
+    Subclasses are frozen dataclasses with ``time``, ``meta`` and ``rejected`` fields.
+    """
+
+    def _finish_meta(self, defaults: dict[str, Any]) -> None:
+        """Fill ``meta`` over ``defaults`` and store ``rejected`` as int arrays (in ``__post_init__``)."""
+        meta = dict(defaults)
+        meta.update(self.meta or {})
+        object.__setattr__(self, "meta", meta)
+        object.__setattr__(self, "rejected", {k: np.asarray(v, dtype=int) for k, v in (self.rejected or {}).items()})
+
+    def __len__(self) -> int:
+        return self.time.size
+
+    @property
+    def baseline(self) -> float:
+        """Time span covered, in days."""
+        return float(self.time[-1] - self.time[0]) if self.time.size else 0.0
+
+    @property
+    def n_rejected(self) -> int:
+        return int(sum(v.size for v in self.rejected.values()))
+
+
 @dataclass(frozen=True, eq=False)
-class LightCurve:
+class LightCurve(_Series):
     """A cleaned photometric time series.
 
     Attributes
@@ -106,29 +132,14 @@ class LightCurve:
         object.__setattr__(self, "flux", f)
         object.__setattr__(self, "flux_err", e)
         object.__setattr__(self, "row", row)
-        meta = {"source": None, "time_system": "unknown", "time_offset": 0.0, "passband": None,
-                "exposure_time": None}
-        meta.update(self.meta or {})
-        object.__setattr__(self, "meta", meta)
-        object.__setattr__(self, "rejected", {k: np.asarray(v, dtype=int) for k, v in (self.rejected or {}).items()})
+        self._finish_meta({"source": None, "time_system": "unknown", "time_offset": 0.0, "passband": None,
+                           "exposure_time": None})
 
-    # -- derived properties -------------------------------------------------------
-    def __len__(self) -> int:
-        return self.time.size
-
-    @property
-    def baseline(self) -> float:
-        """Time span covered, in days."""
-        return float(self.time[-1] - self.time[0]) if self.time.size else 0.0
-
+    # -- derived properties (also len(), baseline, n_rejected from _Series) --------
     @property
     def cadence(self) -> float:
         """Median interval between consecutive points, in days."""
         return float(np.median(np.diff(self.time))) if self.time.size > 1 else float("nan")
-
-    @property
-    def n_rejected(self) -> int:
-        return int(sum(v.size for v in self.rejected.values()))
 
     def without(self, mask: np.ndarray, reason: str) -> "LightCurve":
         """Return a copy with the points where ``mask`` is True moved to the rejection record."""
@@ -192,7 +203,7 @@ class LightCurve:
 
 
 @dataclass(frozen=True, eq=False)
-class VelocityCurve:
+class VelocityCurve(_Series):
     """Radial velocities of one or both stars, in km/s (positive = receding).
 
     Attributes
@@ -242,27 +253,12 @@ class VelocityCurve:
         for name, v in arrays.items():
             object.__setattr__(self, name, v[order])
         object.__setattr__(self, "row", row[order])
-        meta = {"source": None, "time_system": "unknown", "time_offset": 0.0}
-        meta.update(self.meta or {})
-        object.__setattr__(self, "meta", meta)
-        object.__setattr__(self, "rejected", {k: np.asarray(v, dtype=int) for k, v in (self.rejected or {}).items()})
-
-    def __len__(self) -> int:
-        return self.time.size
+        self._finish_meta({"source": None, "time_system": "unknown", "time_offset": 0.0})
 
     @property
     def double_lined(self) -> bool:
         """True when the secondary's velocities are given at some epoch."""
         return bool(np.any(np.isfinite(self.rv2)))
-
-    @property
-    def n_rejected(self) -> int:
-        return int(sum(v.size for v in self.rejected.values()))
-
-    @property
-    def baseline(self) -> float:
-        """Time span covered, in days."""
-        return float(self.time[-1] - self.time[0]) if self.time.size else 0.0
 
     def summary_dict(self) -> dict[str, Any]:
         """What was read and kept, as a JSON-serialisable dict (see :meth:`summary`)."""

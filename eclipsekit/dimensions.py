@@ -24,6 +24,7 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 
+from ._validate import to_unit
 from .errors import EclipsekitWarning, InputError
 
 __all__ = [
@@ -64,13 +65,8 @@ _M_SUN_MAX = 1000.0                         # above this the K's are almost sure
 # --- small helpers -----------------------------------------------------------------
 def _strip(x: Any, unit: u.Unit, name: str) -> Any:
     """Quantity -> float array in ``unit``; floats pass through (already in ``unit``)."""
-    if isinstance(x, u.Quantity):
-        try:
-            return x.to_value(unit, equivalencies=u.dimensionless_angles()) if unit is not u.one \
-                else x.to_value(u.one)
-        except u.UnitConversionError as exc:
-            raise InputError(f"`{name}` has unit {x.unit}, which cannot be converted to {unit}") from exc
-    return x
+    # radians count as dimensionless for angles, but a dimensionless input stays a plain ratio
+    return to_unit(x, unit, name, equivalencies=None if unit is u.one else u.dimensionless_angles())
 
 
 def parse_value_error(text: str) -> tuple[float, float]:

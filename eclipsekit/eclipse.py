@@ -28,14 +28,15 @@ from __future__ import annotations
 
 import math
 from functools import lru_cache
+from typing import NamedTuple
 
 import numpy as np
 from astropy import units as u
 
 from . import _occultation as _occ
 from .errors import GeometryError, InputError
-from .orbit import (OrbitGeometry, _days, _inclination, _kepler_kernel, _period, _times, eccentricity_omega,
-                    orbit_geometry)
+from ._validate import as_float, as_times
+from .orbit import OrbitGeometry, _inclination, _kepler_kernel, _period, eccentricity_omega, orbit_geometry
 
 __all__ = ["occulted_fraction", "model_flux", "light_ratio", "eclipse_properties", "LD_LAWS"]
 
@@ -73,13 +74,8 @@ def _ld_checked(ld_law: str, coeffs: tuple[float, ...], name: str) -> tuple[floa
 
 
 def _finite(value, name: str) -> float:
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"`{name}` must be a number, got {value!r}") from None
-    if not math.isfinite(value):
-        raise GeometryError(f"`{name}` must be finite, got {value}")
-    return value
+    # a model parameter: not a number -> InputError, NaN or inf -> GeometryError
+    return as_float(value, name, error=GeometryError)
 
 
 def _radii(radius_sum, radius_ratio, e: float) -> tuple[float, float]:
@@ -97,15 +93,49 @@ def _radii(radius_sum, radius_ratio, e: float) -> tuple[float, float]:
 
 
 def _exposure(exposure_time) -> float:
-    if isinstance(exposure_time, u.Quantity):
-        try:
-            exposure_time = exposure_time.to_value(u.day)
-        except u.UnitConversionError:
-            raise InputError(f"`exposure_time` must be a time, got unit {exposure_time.unit}") from None
-    texp = _finite(exposure_time if exposure_time is not None else 0.0, "exposure_time")
+    texp = as_float(exposure_time if exposure_time is not None else 0.0, "exposure_time", u.day,
+                    error=GeometryError)
     if texp < 0.0:
         raise InputError(f"`exposure_time` must be >= 0 days, got {texp}")
     return texp
+
+
+class _System(NamedTuple):
+    """Validated parameters shared by :func:`model_flux` and :func:`eclipse_properties`."""
+
+    period: float
+    t0: float
+    inclination: float
+    r1: float                       # R1 / a
+    r2: float                       # R2 / a
+    k: float                        # R2 / R1
+    surface_brightness_ratio: float
+    third_light: float
+    ld_primary: tuple[float, ...]
+    ld_secondary: tuple[float, ...]
+
+
+def _system(period, inclination, ecosw, esinw, radius_sum, radius_ratio, surface_brightness_ratio, third_light,
+            ld_law, ld_primary, ld_secondary, *, t0=0.0) -> _System:
+    """Check the binary's parameters (in this order) and convert them to plain floats.
+
+    Raises InputError for arguments of the wrong type or unit and GeometryError for values
+    that describe no detached binary (see :func:`model_flux`).
+    """
+    per = _period(period)
+    tzero = as_float(t0, "t0", u.day)
+    inc = _inclination(inclination)
+    e, _ = eccentricity_omega(ecosw, esinw)
+    r1, r2 = _radii(radius_sum, radius_ratio, e)
+    jsb = _finite(surface_brightness_ratio, "surface_brightness_ratio")
+    if jsb < 0.0:
+        raise GeometryError(f"`surface_brightness_ratio` must be >= 0, got {jsb}")
+    l3 = _finite(third_light, "third_light")
+    if not (0.0 <= l3 < 1.0):
+        raise GeometryError(f"`third_light` must be in [0, 1), got {l3}")
+    ld1 = _ld(ld_law, ld_primary, "ld_primary")
+    ld2 = _ld(ld_law, ld_secondary, "ld_secondary")
+    return _System(per, tzero, inc, r1, r2, r2 / r1, jsb, l3, ld1, ld2)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -349,21 +379,10 @@ def model_flux(time, *, period, t0, radius_sum: float, radius_ratio: float, incl
     system: 0.1 ppm).  Exposures longer than the eclipse need a larger ``supersample``
     (15: ~1e-5 at 1.5 eclipse durations).
     """
-    t = _times(time)
-    per = _period(period)
-    tzero = _days(t0, "t0")
-    inc = _inclination(inclination)
-    e, _ = eccentricity_omega(ecosw, esinw)
-    r1, r2 = _radii(radius_sum, radius_ratio, e)
-    k = r2 / r1
-    jsb = _finite(surface_brightness_ratio, "surface_brightness_ratio")
-    if jsb < 0.0:
-        raise GeometryError(f"`surface_brightness_ratio` must be >= 0, got {jsb}")
-    l3 = _finite(third_light, "third_light")
-    if not (0.0 <= l3 < 1.0):
-        raise GeometryError(f"`third_light` must be in [0, 1), got {l3}")
-    ld1 = _ld(ld_law, ld_primary, "ld_primary")
-    ld2 = _ld(ld_law, ld_secondary, "ld_secondary")
+    t = as_times(time)
+    per, tzero, inc, r1, r2, k, jsb, l3, ld1, ld2 = _system(
+        period, inclination, ecosw, esinw, radius_sum, radius_ratio, surface_brightness_ratio, third_light,
+        ld_law, ld_primary, ld_secondary, t0=t0)
     texp = _exposure(exposure_time)
     if isinstance(supersample, bool) or int(supersample) != supersample or supersample < 1:
         raise InputError(f"`supersample` must be an integer >= 1, got {supersample!r}")
@@ -425,19 +444,9 @@ def eclipse_properties(*, period, radius_sum: float, radius_ratio: float, inclin
         ``duration_primary``, ``duration_secondary`` (days, first to last contact; 0 when
         there is no eclipse), ``phase_secondary`` (mid-secondary phase, 0..1).
     """
-    per = _period(period)
-    inc = _inclination(inclination)
-    e, _ = eccentricity_omega(ecosw, esinw)
-    r1, r2 = _radii(radius_sum, radius_ratio, e)
-    k = r2 / r1
-    jsb = _finite(surface_brightness_ratio, "surface_brightness_ratio")
-    if jsb < 0.0:
-        raise GeometryError(f"`surface_brightness_ratio` must be >= 0, got {jsb}")
-    l3 = _finite(third_light, "third_light")
-    if not (0.0 <= l3 < 1.0):
-        raise GeometryError(f"`third_light` must be in [0, 1), got {l3}")
-    ld1 = _ld(ld_law, ld_primary, "ld_primary")
-    ld2 = _ld(ld_law, ld_secondary, "ld_secondary")
+    per, _, inc, r1, r2, k, jsb, l3, ld1, ld2 = _system(
+        period, inclination, ecosw, esinw, radius_sum, radius_ratio, surface_brightness_ratio, third_light,
+        ld_law, ld_primary, ld_secondary)
     g = _geometry(per, 0.0, float(ecosw), float(esinw), inc)
     contacts = _windows(g, r1 + r2)
     l2 = jsb * k * k

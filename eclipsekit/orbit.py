@@ -32,64 +32,21 @@ import numpy as np
 from astropy import units as u
 from scipy.optimize import brentq
 
-from .errors import GeometryError, InputError
+from ._validate import as_float, as_times
+from .errors import GeometryError
 
 __all__ = ["solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase",
            "radial_velocities", "eccentricity_omega"]
 
 _TWO_PI = 2.0 * np.pi
+_KMS = u.km / u.s
 
 
 # ----------------------------------------------------------------------------------------------
 # boundary helpers
 # ----------------------------------------------------------------------------------------------
-def _days(value, name: str) -> float:
-    """A scalar in days from a float or a time Quantity."""
-    if isinstance(value, u.Quantity):
-        try:
-            value = value.to_value(u.day)
-        except u.UnitConversionError:
-            raise InputError(f"`{name}` must be a time (days), got unit {value.unit}") from None
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"`{name}` must be a number of days, got {value!r}") from None
-    if not math.isfinite(value):
-        raise InputError(f"`{name}` must be finite, got {value}")
-    return value
-
-
-def _times(time, name: str = "time") -> np.ndarray:
-    """Times in days as a float ndarray (accepts a Quantity or an astropy Time)."""
-    if hasattr(time, "jd") and hasattr(time, "scale"):  # astropy Time: its JD in days
-        time = time.jd
-    if isinstance(time, u.Quantity):
-        try:
-            time = time.to_value(u.day)
-        except u.UnitConversionError:
-            raise InputError(f"`{name}` must be times (days), got unit {time.unit}") from None
-    arr = np.asarray(time, dtype=float)
-    return arr
-
-
-def _angle_deg(value, name: str) -> float:
-    if isinstance(value, u.Quantity):
-        try:
-            value = value.to_value(u.deg)
-        except u.UnitConversionError:
-            raise InputError(f"`{name}` must be an angle (degrees), got unit {value.unit}") from None
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"`{name}` must be a number of degrees, got {value!r}") from None
-    return value
-
-
 def _period(period) -> float:
-    p = _days(period, "period")
-    if not p > 0.0:
-        raise InputError(f"`period` must be positive, got {p} d")
-    return p
+    return as_float(period, "period", u.day, positive=True)
 
 
 def eccentricity_omega(ecosw: float, esinw: float) -> tuple[float, float]:
@@ -112,7 +69,8 @@ def eccentricity_omega(ecosw: float, esinw: float) -> tuple[float, float]:
 
 
 def _inclination(inclination) -> float:
-    inc = _angle_deg(inclination, "inclination")
+    # NaN is left to the range check below, so that it raises GeometryError like any bad angle
+    inc = as_float(inclination, "inclination", u.deg, finite=False)
     if not (0.0 <= inc <= 90.0):
         raise GeometryError(f"`inclination` must be between 0 and 90 degrees, got {inc}")
     return inc
@@ -344,8 +302,8 @@ def true_anomaly(time, *, period, t0, ecosw: float = 0.0, esinw: float = 0.0,
     nu : ndarray
         True anomaly in radians, in [-pi, pi].
     """
-    g = orbit_geometry(_period(period), _days(t0, "t0"), ecosw, esinw, _inclination(inclination))
-    return _true_anomaly_geom(_times(time), g)
+    g = orbit_geometry(_period(period), as_float(t0, "t0", u.day), ecosw, esinw, _inclination(inclination))
+    return _true_anomaly_geom(as_times(time), g)
 
 
 def sky_separation(time, *, period, t0, ecosw: float = 0.0, esinw: float = 0.0,
@@ -360,8 +318,8 @@ def sky_separation(time, *, period, t0, ecosw: float = 0.0, esinw: float = 0.0,
         True where star 1 is nearer the observer (a secondary eclipse if they overlap);
         False where star 2 is in front (primary eclipse).
     """
-    g = orbit_geometry(_period(period), _days(t0, "t0"), ecosw, esinw, _inclination(inclination))
-    t = _times(time)
+    g = orbit_geometry(_period(period), as_float(t0, "t0", u.day), ecosw, esinw, _inclination(inclination))
+    t = as_times(time)
     nu = _true_anomaly_geom(t, g)
     theta = nu + g.omega
     r = (1.0 - g.e ** 2) / (1.0 + g.e * np.cos(nu))
@@ -379,7 +337,7 @@ def conjunction_times(*, period, t0, ecosw: float = 0.0, esinw: float = 0.0,
     t_primary, t_secondary : float
         ``t_primary == t0`` by definition; ``t0 <= t_secondary < t0 + period``.
     """
-    g = orbit_geometry(_period(period), _days(t0, "t0"), ecosw, esinw, _inclination(inclination))
+    g = orbit_geometry(_period(period), as_float(t0, "t0", u.day), ecosw, esinw, _inclination(inclination))
     return g.t0, g.t_secondary
 
 
@@ -406,16 +364,14 @@ def radial_velocities(time, *, period, t0, k_primary: float, k_secondary: float 
     rv1, rv2 : ndarray, ndarray or None
         ``rv2`` is None when ``k_secondary`` is None.
     """
-    g = orbit_geometry(_period(period), _days(t0, "t0"), ecosw, esinw, _inclination(inclination))
+    g = orbit_geometry(_period(period), as_float(t0, "t0", u.day), ecosw, esinw, _inclination(inclination))
 
     def kms(v, name):
-        if isinstance(v, u.Quantity):
-            v = v.to_value(u.km / u.s)
-        return float(v)
+        return as_float(v, name, _KMS, finite=False)   # NaN passes: a velocity model is plain arithmetic
 
     k1 = kms(k_primary, "k_primary")
     gam = kms(gamma, "gamma")
-    nu = _true_anomaly_geom(_times(time), g)
+    nu = _true_anomaly_geom(as_times(time), g)
     shape = np.cos(nu + g.omega) + g.e * math.cos(g.omega)
     rv1 = gam + k1 * shape
     rv2 = None if k_secondary is None else gam - kms(k_secondary, "k_secondary") * shape

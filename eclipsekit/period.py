@@ -44,6 +44,7 @@ from scipy.optimize import least_squares
 
 from ._grid import Q_MAX, bin_in_time, frequency_grid, min_duty_cycle, period_bands, trial_durations
 from ._pdm import pdm_theta
+from ._validate import as_float
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
 
 __all__ = ["PeriodSearch", "find_period", "SDE_THRESHOLD", "PDM_SDE_THRESHOLD"]
@@ -262,26 +263,6 @@ class PeriodSearch:
             out["bls_periodogram"] = {"period": self.bls_periods.tolist(), "power": self.bls_power.tolist()}
             out["pdm_periodogram"] = {"period": self.pdm_periods.tolist(), "theta": self.pdm_theta.tolist()}
         return out
-
-
-# ----------------------------------------------------------------------------------------
-# helpers: validation
-# ----------------------------------------------------------------------------------------
-def _days(value, name: str) -> float | None:
-    if value is None:
-        return None
-    if isinstance(value, u.Quantity):
-        try:
-            value = value.to_value(u.day)
-        except u.UnitConversionError:
-            raise InputError(f"`{name}` must be a time (e.g. days), got unit {value.unit}") from None
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"`{name}` must be a number of days, got {value!r}") from None
-    if not math.isfinite(value) or value <= 0:
-        raise InputError(f"`{name}` must be a positive number of days, got {value}")
-    return value
 
 
 # ----------------------------------------------------------------------------------------
@@ -889,8 +870,8 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         raise InputError(f"`n_jobs` must be a positive integer, got {n_jobs}")
     n_jobs = int(n_jobs)
     baseline = float(t_abs[-1] - t_abs[0])
-    pmin = _days(min_period, "min_period")
-    pmax = _days(max_period, "max_period")
+    pmin = as_float(min_period, "min_period", u.day, positive=True, allow_none=True)
+    pmax = as_float(max_period, "max_period", u.day, positive=True, allow_none=True)
     if pmax is not None and pmax > baseline:
         raise InputError(f"`max_period` {pmax} d exceeds the {baseline:.3f} d baseline; "
                          "at least two eclipses are needed")

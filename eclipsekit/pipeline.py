@@ -14,9 +14,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import astropy.units as u
 import numpy as np
 from astropy.table import Table
 
+from ._validate import as_float
 from .data import LightCurve, VelocityCurve, read_light_curve, read_velocities
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
 
@@ -337,16 +339,8 @@ def _exposure_days(exposure_time: Any, lc: LightCurve) -> float | None:
     """Exposure time in days: the argument (days or Quantity) or else the file header's."""
     if exposure_time is None:
         return lc.meta.get("exposure_time")
-    try:
-        import astropy.units as u
-
-        if isinstance(exposure_time, u.Quantity):
-            value = float(exposure_time.to_value(u.day))
-        else:
-            value = float(exposure_time)
-    except Exception:  # noqa: BLE001 - any unconvertible value is the user's input error
-        raise InputError(f"`exposure_time` must be a time (days or a Quantity), got {exposure_time!r}") from None
-    if not np.isfinite(value) or value < 0:
+    value = as_float(exposure_time, "exposure_time", u.day)
+    if value < 0:
         raise InputError(f"`exposure_time` must be zero or positive, got {exposure_time!r}")
     return value
 

@@ -26,6 +26,7 @@ import lmfit
 import numpy as np
 
 from . import orbit as _orbit
+from ._validate import as_float
 from .data import VelocityCurve
 from .dimensions import mass_function as _mass_function
 from .dimensions import minimum_masses as _minimum_masses
@@ -152,20 +153,6 @@ def _incl_kw(inclination: float | None) -> dict[str, float]:
     return {"inclination": inc} if 0.0 < inc < 90.0 else {}
 
 
-def _days(x: Any, name: str) -> float | None:
-    if x is None:
-        return None
-    if isinstance(x, u.Quantity):
-        try:
-            return float(x.to_value(u.day))
-        except u.UnitConversionError as exc:
-            raise InputError(f"`{name}` must be a time (days), got unit {x.unit}") from exc
-    try:
-        return float(x)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be a number of days or a time Quantity") from exc
-
-
 def _value_error(x: Any, name: str) -> tuple[float | None, float | None]:
     """float | (value, error) -> (value, error)."""
     if x is None:
@@ -173,8 +160,8 @@ def _value_error(x: Any, name: str) -> tuple[float | None, float | None]:
     if isinstance(x, (tuple, list)):
         if len(x) != 2:
             raise InputError(f"`{name}` must be a value or a (value, error) pair")
-        return float(x[0]), (None if x[1] is None else float(x[1]))
-    return float(x), None
+        return as_float(x[0], name, finite=False), (None if x[1] is None else as_float(x[1], name, finite=False))
+    return as_float(x, name, finite=False), None
 
 
 def _ephemeris_info(eph: Any) -> dict[str, tuple[float | None, float | None]]:
@@ -360,9 +347,9 @@ def fit_velocities(
     p_val, p_err = eph.get("period", (None, None))
     t_val, t_err = eph.get("t0", (None, None))
     if period is not None:
-        p_val, p_err = _days(period, "period"), None
+        p_val, p_err = as_float(period, "period", u.day), None
     if t0 is not None:
-        t_val, t_err = _days(t0, "t0"), None
+        t_val, t_err = as_float(t0, "t0", u.day), None
     if p_val is None:
         raise InputError("`period` is needed: pass an ephemeris (light-curve fit or period search) or period=")
     if not p_val > 0:
