@@ -72,10 +72,21 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--t0", type=float, help="time of primary mid-eclipse to start from (days)")
     g.add_argument("--exposure-time", type=float, metavar="SECONDS",
                    help="integration time of each point in seconds (turns on exposure smearing)")
-    g.add_argument("--free", nargs="+", default=[], metavar="PARAM", help="parameters to fit that are fixed by default")
+    g.add_argument("--supersample", type=int, metavar="N",
+                   help="integration points per exposure with --exposure-time (default: the fit's own)")
+    g.add_argument("--ld-law", choices=["uniform", "linear", "quadratic", "power-2"], default="quadratic",
+                   help="limb-darkening law (default: quadratic)")
+    g.add_argument("--ld1", type=float, nargs="+", metavar="C",
+                   help="limb-darkening coefficients of the primary (default: typical values)")
+    g.add_argument("--ld2", type=float, nargs="+", metavar="C",
+                   help="limb-darkening coefficients of the secondary (default: typical values)")
+    g.add_argument("--free", nargs="+", default=[], metavar="PARAM",
+                   help="parameters to fit that are fixed by default (e.g. third_light ld1_1 ld2_1)")
     g.add_argument("--fix", nargs="+", default=[], metavar="PARAM", help="parameters to hold fixed")
     g.add_argument("--errors", choices=["covariance", "mcmc", "permutation"], default="covariance",
                    help="how uncertainties are estimated (default: covariance)")
+    g.add_argument("--mcmc-walkers", type=int, default=32, metavar="N", help="MCMC walkers (default: 32)")
+    g.add_argument("--mcmc-steps", type=int, default=2000, metavar="N", help="MCMC steps per walker (default: 2000)")
     g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
 
 
@@ -177,8 +188,11 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
     prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
     exposure = None if getattr(args, "exposure_time", None) is None else args.exposure_time / 86400.0
     fit_options = {}
-    if getattr(args, "supersample", None) is not None:
-        fit_options["supersample"] = args.supersample
+    if args.command != "demo":
+        fit_options = {"ld_law": args.ld_law, "ld_primary": args.ld1, "ld_secondary": args.ld2,
+                       "mcmc_walkers": args.mcmc_walkers, "mcmc_steps": args.mcmc_steps}
+        if args.supersample is not None:
+            fit_options["supersample"] = args.supersample
     analysis = analyse(
         lc, rv,
         k_primary=getattr(args, "k1", None), k_secondary=getattr(args, "k2", None),
