@@ -77,7 +77,7 @@ def format_summary(result: Mapping[str, Any]) -> str:
             unit = q.get("unit") or ""
             unit = {"solRad": "R_sun", "solMass": "M_sun", "solLum": "L_sun", "dex(cm / s2)": ""}.get(unit, unit)
             label = _LABELS.get(name, name)
-            lines.append(f"  {label:<30s} {format_value(q.get('value'), q.get('uncertainty')):>28s} {unit}")
+            lines.append(f"  {label:<30s} {format_value(q.get('value'), q.get('uncertainty')):>28s} {unit}".rstrip())
         budget = block.get("uncertainty_budget") if isinstance(block, dict) else None
         if budget:
             lines.append("  Where the uncertainty comes from:")
