@@ -185,3 +185,10 @@ def test_long_cadence_without_exposure_warns():
     sparse = type(lc)(lc.time[::15], lc.flux[::15], lc.flux_err[::15], meta=lc.meta)  # 30-minute cadence
     result = analyse(sparse, period=TRUTH["period"], t0=TRUTH["t0"], progress=False)
     assert any("smeared" in w for w in result.warnings)
+
+
+def test_packaged_sample_matches_samples_folder():
+    # eclipsekit/sample_data/ is the installed copy of samples/ (scripts/make_samples.py writes both)
+    packaged = sample_paths()[0].parent
+    for name in ("demo_light_curve.csv", "demo_velocities.csv", "truth.json"):
+        assert (packaged / name).read_bytes() == (ROOT / "samples" / name).read_bytes(), name
