@@ -90,15 +90,17 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
 
 
-def _dimension_options(p: argparse.ArgumentParser, rv_flag: bool = True) -> None:
+def _dimension_options(p: argparse.ArgumentParser, joint: bool = False) -> None:
     g = p.add_argument_group("spectroscopy and absolute dimensions")
-    if rv_flag:
-        g.add_argument("--rv", help="radial-velocity file (columns time, rv1, rv1_err, rv2, rv2_err; km/s)")
+    g.add_argument("--rv", help="radial-velocity file (columns time, rv1, rv1_err, rv2, rv2_err; km/s)")
     g.add_argument("--k1", type=_value_error, metavar="V±E", help="primary's velocity semi-amplitude, km/s")
     g.add_argument("--k2", type=_value_error, metavar="V±E", help="secondary's velocity semi-amplitude, km/s")
     g.add_argument("--teff1", type=_value_error, metavar="T±E", help="primary's effective temperature, K")
     g.add_argument("--teff2", type=_value_error, metavar="T±E", help="secondary's effective temperature, K")
     g.add_argument("--parallax", type=_value_error, metavar="P±E", help="parallax in milliarcseconds")
+    if joint:
+        g.add_argument("--joint", action="store_true",
+                       help="fit light curve and velocities together (shared period, epoch, e cos w, e sin w)")
 
 
 def _output_options(p: argparse.ArgumentParser, default: str | None) -> None:
@@ -202,6 +204,7 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         period=getattr(args, "period", None), t0=getattr(args, "t0", None), exposure_time=exposure,
         errors=getattr(args, "errors", "covariance"), fix=tuple(getattr(args, "fix", ())),
         free=tuple(getattr(args, "free", ())), progress=not args.quiet, seed=getattr(args, "seed", None),
+        joint=getattr(args, "joint", False),
         command=args.command_line, fit_options=fit_options)
     written = analysis.write(args.out, overwrite=True)
     print(analysis.summary())
@@ -285,7 +288,7 @@ def build_parser() -> argparse.ArgumentParser:
         _period_options(p)
         _fit_options(p)
         if with_dimensions:
-            _dimension_options(p)
+            _dimension_options(p, joint=True)
         _output_options(p, "eclipsekit-results")
         _common(p)
         p.set_defaults(func=_cmd_analyse)

@@ -426,6 +426,19 @@ def _from_fit(fit: Any, key: str) -> tuple[float | None, float | None, np.ndarra
     return (None if val is None else float(val)), (None if err is None else float(err)), s
 
 
+def _same_sample_set(eclipse_fit: Any, orbit: Any) -> bool:
+    """True when the orbit's samples are rows of the eclipse fit's samples (a joint fit).
+
+    A joint fit's samples hold the velocity semi-amplitudes too; identical, non-constant
+    K1 draws of the same length can only come from the same sample set.
+    """
+    a, b = _get(eclipse_fit, "samples"), _get(orbit, "samples")
+    if "k_primary" not in a or "k_primary" not in b:
+        return False
+    x, y = np.asarray(a["k_primary"], float), np.asarray(b["k_primary"], float)
+    return x.shape == y.shape and x.size > 1 and np.ptp(x) > 0 and bool(np.array_equal(x, y))
+
+
 class _Input:
     __slots__ = ("name", "value", "error", "samples", "group", "source")
 
@@ -537,7 +550,10 @@ def absolute_dimensions(
     Uncertainties are propagated by samples: the light-curve samples and the orbit
     samples are each resampled (with replacement, whole rows, so each set keeps its
     internal correlations such as r1-r2 or r-i) and paired at random, because the two
-    data sets are independent.  Inputs without samples are drawn from normal
+    data sets are independent.  A joint light-curve and velocity fit
+    (``fit_eclipses(..., velocities=rv)``) has one sample set for both: its rows are
+    drawn whole, so K1, K2, e and the geometry keep their joint correlations (its
+    ``orbit`` is used when ``orbit`` is not given).  Inputs without samples are drawn from normal
     distributions.  Each quantity is reported as the median and standard deviation of
     its samples.  The uncertainty budget propagates each input alone (the others held
     at their medians) and reports its share of the summed variances; shared
@@ -569,6 +585,10 @@ def absolute_dimensions(
         notes.append(msg)
         warnings.warn(msg, EclipsekitWarning, stacklevel=3)
 
+    if orbit is None and getattr(eclipse_fit, "orbit", None) is not None:
+        orbit = eclipse_fit.orbit  # a joint light-curve + velocity fit carries its orbit
+    # rows of one joint sample set (see eclipsekit.joint) must stay paired: one group for both fits
+    joint = _same_sample_set(eclipse_fit, orbit)
     inputs: dict[str, _Input] = {}
     units = {"period": u.day, "inclination": u.deg, "frac_radius_primary": u.one,
              "frac_radius_secondary": u.one, "eccentricity": u.one, "k_primary": u.km / u.s,
@@ -695,7 +715,7 @@ def absolute_dimensions(
     draws: dict[str, np.ndarray] = {}
     for name, inp in inputs.items():
         if inp.samples is not None:
-            key = (inp.group, inp.samples.size)
+            key = ("joint" if joint and inp.source in ("eclipse_fit", "orbit") else inp.group, inp.samples.size)
             if key not in group_index:
                 group_index[key] = rng.integers(0, inp.samples.size, n_samples)
             draws[name] = inp.samples[group_index[key]]

@@ -559,7 +559,14 @@ class EclipseFit:
         acceptance, burn-in and thinning; permutation shifts.
     covariance : ndarray
         Covariance of the free parameters (in the order of ``free``), scaled by the
-        reduced chi-square.
+        reduced chi-square, in the fitted parameterisation: ``t0`` as the offset from
+        ``diagnostics["t_ref"]``, ``period`` as ``(P - P_ref) * diagnostics["n_cycles"]``.
+    orbit : OrbitFit or None
+        Joint fit only (``velocities=`` given): the spectroscopic orbit at the joint
+        values, an :class:`~eclipsekit.spectroscopy.OrbitFit` whose samples are rows of
+        this fit's samples (``absolute_dimensions(fit, fit.orbit)`` pairs them row by
+        row).  The velocity parameters ``k_primary``, ``k_secondary``, ``gamma`` (and
+        ``gamma_offset``) are then also in ``values``, ``uncertainties`` and ``samples``.
     """
 
     values: dict[str, float]
@@ -588,7 +595,9 @@ class EclipseFit:
     covariance: np.ndarray | None = None
     n_baseline: int = 0
     segments: list[tuple[float, float]] = field(default_factory=list)
+    orbit: Any = None
     _problem: Any = field(default=None, repr=False)
+    _fit_problem: Any = field(default=None, repr=False)
 
     @property
     def detrended_flux(self) -> np.ndarray:
@@ -697,6 +706,38 @@ def _depths(v: Mapping[str, float], ld_law: str) -> tuple[float, float]:
     return float(props["depth_primary"]), float(props["depth_secondary"])
 
 
+def _depth_samples(samples: Mapping[str, np.ndarray], names: Iterable[str], free_names: Iterable[str],
+                   ld_law: str, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+    """Primary and secondary depth of every sample row.
+
+    Exact on a subset of 150 rows; the rest from a linear regression on the free
+    parameters over that subset plus a resampled regression residual (the depths are
+    smooth functions of the parameters over the width of the samples).
+    """
+    names, free_names = list(names), list(free_names)
+    nrow = next(iter(samples.values())).size
+    dp = np.empty(nrow)
+    ds = np.empty(nrow)
+    n_depth = min(nrow, 150)  # depths: exact on a subset, the rest from a linear regression on the parameters
+    idx = rng.choice(nrow, n_depth, replace=False) if n_depth < nrow else np.arange(nrow)
+    for j in idx:
+        try:
+            dp[j], ds[j] = _depths({n: samples[n][j] for n in names}, ld_law)
+        except (ValueError, ArithmeticError):
+            dp[j], ds[j] = np.nan, np.nan
+    if n_depth < nrow:
+        rest = np.setdiff1d(np.arange(nrow), idx)
+        # linear regression of the depths on the free parameters over the exact subset
+        X = np.column_stack([np.ones(nrow)] + [samples[n] - np.mean(samples[n]) for n in free_names
+                                               if np.ptp(samples[n]) > 0])
+        for arr in (dp, ds):
+            okk = np.isfinite(arr[idx])
+            coef, *_ = np.linalg.lstsq(X[idx][okk], arr[idx][okk], rcond=None)
+            resid_d = arr[idx][okk] - X[idx][okk] @ coef
+            arr[rest] = X[rest] @ coef + rng.choice(resid_d, rest.size)
+    return dp, ds
+
+
 def _eclipse_props(v: Mapping[str, float], ld_law: str) -> dict[str, float]:
     from . import eclipse
 
@@ -782,9 +823,11 @@ def fit_eclipses(
     n_shifts: int | None = None,
     progress: bool = True,
     seed: int | None = None,
+    velocities: Any = None,
+    separate_gamma: bool = False,
     **values: Any,
 ) -> EclipseFit:
-    """Fit both eclipses of a detached eclipsing binary.
+    """Fit both eclipses of a detached eclipsing binary (optionally jointly with velocities).
 
     Parameters
     ----------
@@ -841,6 +884,13 @@ def fit_eclipses(
         Show progress bars (MCMC, permutation).
     seed : int, optional
         Random seed for the samples and the MCMC.
+    velocities : VelocityCurve, optional
+        Radial velocities of the same binary: fit them jointly with the light curve
+        (shared period, t0, e cos w, e sin w; see :func:`eclipsekit.joint.fit_joint`).
+        The result then also holds ``k_primary``, ``k_secondary``, ``gamma`` and an
+        ``orbit`` (:class:`~eclipsekit.spectroscopy.OrbitFit`).  Covariance errors only.
+    separate_gamma : bool
+        Joint fit only: a separate systemic-velocity offset for star 2.
     **values : float
         Parameter values by name (e.g. ``third_light=0.1``); a value given this way is
         held fixed unless also listed in ``free``.
@@ -867,6 +917,17 @@ def fit_eclipses(
     ``errors="mcmc"`` the flux errors are first scaled by sqrt(reduced chi-square) of
     the least-squares fit, as the covariance method does.
     """
+    if velocities is not None:
+        # the joint fit starts from this function's light-curve-only fit; it lives in joint.py
+        from .joint import fit_joint
+
+        return fit_joint(lc, velocities, start, period=period, t0=t0, fix=fix, free=free, errors=errors,
+                         exposure_time=exposure_time, supersample=supersample, ld_law=ld_law,
+                         ld_primary=ld_primary, ld_secondary=ld_secondary, baseline_degree=baseline_degree,
+                         gap=gap, clip_sigma=clip_sigma, window=window, n_samples=n_samples, progress=progress,
+                         seed=seed, separate_gamma=separate_gamma, **values)
+    if separate_gamma:
+        raise InputError("`separate_gamma` needs `velocities` (a joint fit)")
     t_start = _time.perf_counter()
     if not isinstance(lc, LightCurve):
         raise InputError(f"`lc` must be an eclipsekit LightCurve, got {type(lc).__name__}")
@@ -1394,27 +1455,7 @@ def fit_eclipses(
 
     # -- derived quantities ----------------------------------------------------------------
     samples.update(_derived_from(samples))
-    nrow = next(iter(samples.values())).size
-    dp = np.empty(nrow)
-    ds = np.empty(nrow)
-    n_depth = min(nrow, 150)  # depths: exact on a subset, the rest from a linear regression on the parameters
-    idx = rng.choice(nrow, n_depth, replace=False) if n_depth < nrow else np.arange(nrow)
-    for j in idx:
-        try:
-            dp[j], ds[j] = _depths({n: samples[n][j] for n in names}, ld_law)
-        except (ValueError, ArithmeticError):
-            dp[j], ds[j] = np.nan, np.nan
-    if n_depth < nrow:
-        rest = np.setdiff1d(np.arange(nrow), idx)
-        # linear regression of the depths on the free parameters over the exact subset
-        X = np.column_stack([np.ones(nrow)] + [samples[n] - np.mean(samples[n]) for n in free_names
-                                               if np.ptp(samples[n]) > 0])
-        for arr in (dp, ds):
-            okk = np.isfinite(arr[idx])
-            coef, *_ = np.linalg.lstsq(X[idx][okk], arr[idx][okk], rcond=None)
-            resid_d = arr[idx][okk] - X[idx][okk] @ coef
-            arr[rest] = X[rest] @ coef + rng.choice(resid_d, rest.size)
-    samples["depth_primary"], samples["depth_secondary"] = dp, ds
+    samples["depth_primary"], samples["depth_secondary"] = _depth_samples(samples, names, free_names, ld_law, rng)
     derived_best = _derived_from({k: np.atleast_1d(vals_report[k]) for k in names})
     for k_, a in derived_best.items():
         vals_report[k_] = float(a[0])
@@ -1441,7 +1482,9 @@ def fit_eclipses(
     if errors == "covariance" and cov is not None:
         sd = np.sqrt(np.diag(cov))
         for n, sdi in zip(free_names, sd):
-            unc[n] = float(sdi)  # exact from the matrix (samples are truncated at bounds)
+            # exact from the matrix (samples are truncated at bounds); the period is fitted as the timing
+            # shift (P - P_ref) * n_cycles, so its standard deviation is that shift's divided by n_cycles
+            unc[n] = float(sdi / n_cyc if n == "period" else sdi)
     if errors == "mcmc":
         for n in DERIVED:
             if n in samples and np.all(np.isfinite(samples[n])):
@@ -1505,4 +1548,4 @@ def fit_eclipses(
                       ld_secondary=tuple(ordered[f"ld2_{j + 1}"] for j in range(nld)), exposure_time=exp_d,
                       supersample=supersample, lmfit_result=lmfit_result, warnings=warn_list, success=success,
                       message=str(message), diagnostics=diag, covariance=cov, n_baseline=full.n_linear,
-                      segments=full.segments, _problem=full)
+                      segments=full.segments, _problem=full, _fit_problem=pr)

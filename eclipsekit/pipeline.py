@@ -228,6 +228,7 @@ def analyse(
     free: tuple[str, ...] = (),
     progress: bool = True,
     seed: int | None = None,
+    joint: bool = False,
     command: str | None = None,
     fit_options: dict[str, Any] | None = None,
 ) -> Analysis:
@@ -260,6 +261,9 @@ def analyse(
         Show progress bars.
     seed : int, optional
         Random seed for sampling, for repeatable results.
+    joint : bool
+        Fit the light curve and the velocities together (shared period, epoch, e cos ω
+        and e sin ω; covariance uncertainties only) instead of one after the other.
     command : str, optional
         The command line, recorded in ``result.json``.
     fit_options : dict, optional
@@ -290,6 +294,8 @@ def analyse(
             "teff_secondary": teff_secondary, "parallax": parallax}.items() if v is not None}
         if velocities is not None and (k_primary is not None or k_secondary is not None):
             raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
+        if joint and velocities is None:
+            raise InputError("a joint fit needs velocities: give --rv (or drop --joint)")
 
         exposure = _exposure_days(exposure_time, lc)
         if exposure is None and lc.cadence > LONG_CADENCE:
@@ -312,11 +318,14 @@ def analyse(
             start = {"period": float(period), **({"t0": float(t0)} if t0 is not None else {})}
 
         if analysis.status == "ok":
-            with _Timer(timings, "eclipse fit"):
+            with _Timer(timings, "joint fit" if joint else "eclipse fit"):
                 analysis.eclipse_fit = fit_eclipses(
                     lc, start, errors=errors, fix=tuple(fix), free=tuple(free), exposure_time=exposure or 0.0,
-                    progress=progress, seed=seed, **(fit_options or {}))
-            if velocities is not None:
+                    progress=progress, seed=seed, velocities=velocities if joint else None,
+                    **(fit_options or {}))
+            if joint:
+                analysis.orbit = analysis.eclipse_fit.orbit
+            elif velocities is not None:
                 with _Timer(timings, "velocity fit"):
                     analysis.orbit = fit_velocities(velocities, analysis.eclipse_fit)
             if analysis.orbit is not None or k_primary is not None:

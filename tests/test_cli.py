@@ -108,3 +108,9 @@ def test_dimensions_command(tmp_path, capsys):
     assert "M1" in capsys.readouterr().out
     # neither velocities nor amplitudes: usage error
     assert main(["dimensions", str(fit_dir / "result.json"), "--quiet"]) == 2
+
+
+def test_joint_fit_needs_velocities(tmp_path, capsys):
+    lc, _ = sample_paths()
+    assert main(["run", str(lc), "--joint", "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    assert "--rv" in _one_line_error(capsys)
