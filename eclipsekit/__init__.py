@@ -17,3 +17,17 @@ from .dimensions import AbsoluteDimensions, absolute_dimensions
 from .pipeline import Analysis, analyse
 
 __version__ = "0.1.0"
+
+__all__ = [
+    # reading data
+    "LightCurve", "VelocityCurve", "read_light_curve", "read_velocities", "magnitudes_to_flux", "sample_paths",
+    # the model
+    "model_flux", "occulted_fraction", "light_ratio", "eclipse_properties",
+    "solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase", "radial_velocities",
+    # the analysis steps
+    "find_period", "PeriodSearch", "fit_eclipses", "EclipseFit", "fit_joint", "fit_velocities", "OrbitFit",
+    "absolute_dimensions", "AbsoluteDimensions", "analyse", "Analysis",
+    # errors and warnings
+    "EclipsekitError", "InputError", "GeometryError", "NoEclipseFound", "FitError", "EclipsekitWarning",
+    "__version__",
+]

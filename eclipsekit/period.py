@@ -1076,11 +1076,10 @@ _TABLE_COLS = [
 def _table(evals, best, t_ref) -> Table:
     cols = {}
     for name, unit, desc in _TABLE_COLS:
-        vals = [e[name] + (t_ref if name == "t0" else 0.0) if name == "t0" else e[name] for e in evals]
+        vals = [e[name] + t_ref if name == "t0" else e[name] for e in evals]
         cols[name] = vals
     tab = Table()
     for name, unit, desc in _TABLE_COLS:
-        kw = {"unit": unit} if unit else {}
         if name == "source":
             tab[name] = np.array(cols[name], dtype=str) if evals else np.array([], dtype=str)
         elif name == "secondary":

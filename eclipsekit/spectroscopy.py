@@ -138,7 +138,7 @@ class OrbitFit:
         return "\n".join(lines)
 
     def __repr__(self) -> str:
-        v, e = self.values, self.uncertainties
+        v = self.values
         k2 = f", K2 = {v['k_secondary']:.3f}" if self.double_lined else ""
         return (f"<OrbitFit K1 = {v['k_primary']:.3f}{k2} km/s, gamma = {v['gamma']:.3f} km/s, "
                 f"e = {v['eccentricity']:.4f}, rms = {self.rms_primary:.3f} km/s>")

@@ -14,8 +14,8 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 import pytest
-from scipy.optimize import brentq
 
+from _textbook import textbook_velocity
 from eclipsekit.data import VelocityCurve
 from eclipsekit.dimensions import (
     ASINI_FACTOR,
@@ -142,21 +142,6 @@ def test_parse_value_error():
 
 
 # --- absolute_dimensions --------------------------------------------------------------------------
-def textbook_velocity(time, *, period, t0, k, gamma, e, omega_deg, sign=+1.0):
-    """gamma + sign K [cos(nu + w) + e cos w] (Hilditch 2001, eq. 2.45); t0 at nu + w = 90 deg."""
-    w = np.radians(omega_deg)
-    nu0 = np.pi / 2 - w
-    e_anom0 = 2 * np.arctan2(np.sqrt(1 - e) * np.sin(nu0 / 2), np.sqrt(1 + e) * np.cos(nu0 / 2))
-    mean0 = e_anom0 - e * np.sin(e_anom0)
-    out = np.empty(np.size(time))
-    for i, t in enumerate(np.atleast_1d(time)):
-        mean = (mean0 + 2 * np.pi * (t - t0) / period) % (2 * np.pi)
-        ecc_anom = brentq(lambda x: x - e * np.sin(x) - mean, 0.0, 2 * np.pi, xtol=1e-14)
-        nu = 2 * np.arctan2(np.sqrt(1 + e) * np.sin(ecc_anom / 2), np.sqrt(1 - e) * np.cos(ecc_anom / 2))
-        out[i] = gamma + sign * k * (np.cos(nu + w) + e * np.cos(w))
-    return out
-
-
 def test_end_to_end_masses_and_radii():
     # invented system: 1.40 + 1.10 M_sun, R = 1.60, 1.15 R_sun, P = 3.5 d, e = 0.05, w = 70 deg, i = 87.5 deg
     m1, m2, r1, r2, p, e, w, inc, t0 = 1.40, 1.10, 1.60, 1.15, 3.5, 0.05, 70.0, 87.5, 2458000.25

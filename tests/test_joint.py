@@ -16,8 +16,8 @@ import warnings
 
 import numpy as np
 import pytest
-from scipy.optimize import brentq
 
+from _textbook import textbook_velocity
 from eclipsekit.data import LightCurve, VelocityCurve
 from eclipsekit.dimensions import absolute_dimensions
 from eclipsekit.eclipse import model_flux
@@ -36,24 +36,6 @@ LD = dict(ld_primary=(0.42, 0.22), ld_secondary=(0.48, 0.20))
 ECOSW = TRUE["e"] * np.cos(np.radians(TRUE["omega"]))
 ESINW = TRUE["e"] * np.sin(np.radians(TRUE["omega"]))
 SEED = int(os.environ.get("JOINT_SEED", 2))
-
-
-def textbook_velocity(time, *, period, t0, k, gamma, e, omega_deg, sign=+1.0):
-    """gamma + sign K [cos(nu + w) + e cos w] (textbook Keplerian RV, e.g. Hilditch 2001, eq. 2.45; common practice).
-
-    t0 is the primary conjunction, nu + w = 90 deg.  Kepler's equation M = E - e sin E by brentq.
-    """
-    w = np.radians(omega_deg)
-    nu0 = np.pi / 2 - w
-    e_anom0 = 2 * np.arctan2(np.sqrt(1 - e) * np.sin(nu0 / 2), np.sqrt(1 + e) * np.cos(nu0 / 2))
-    mean0 = e_anom0 - e * np.sin(e_anom0)
-    out = np.empty(np.size(time))
-    for i, t in enumerate(np.atleast_1d(time)):
-        mean = (mean0 + 2 * np.pi * (t - t0) / period) % (2 * np.pi)
-        ecc_anom = brentq(lambda x: x - e * np.sin(x) - mean, 0.0, 2 * np.pi, xtol=1e-14)
-        nu = 2 * np.arctan2(np.sqrt(1 + e) * np.sin(ecc_anom / 2), np.sqrt(1 - e) * np.cos(ecc_anom / 2))
-        out[i] = gamma + sign * k * (np.cos(nu + w) + e * np.cos(w))
-    return out
 
 
 def _data(seed=SEED, n_rv=24, sigma_lc=4e-3, err1=1.0, err2=1.3):

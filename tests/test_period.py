@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from astropy import units as u
 from astropy.timeseries import BoxLeastSquares
-from numpy.testing import assert_allclose, assert_array_equal
+from numpy.testing import assert_allclose
 
 from eclipsekit import period as period_module
 from eclipsekit._grid import Q0, bin_in_time, frequency_grid, min_duty_cycle, trial_durations

@@ -1,7 +1,7 @@
 """Tests of the spectroscopic orbit fit (eclipsekit.spectroscopy).
 
-Reference velocities come from an independent textbook expression written here
-(v = gamma + K [cos(nu + w) + e cos w], Kepler's equation solved with
+Reference velocities come from an independent textbook expression (tests/_textbook.py:
+v = gamma + K [cos(nu + w) + e cos w], Kepler's equation solved with
 scipy.optimize.brentq), not from eclipsekit.orbit, so the checks are independent.
 """
 
@@ -13,8 +13,8 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 import pytest
-from scipy.optimize import brentq
 
+from _textbook import textbook_velocity
 from eclipsekit.data import VelocityCurve
 from eclipsekit.dimensions import absolute_dimensions, mass_function
 from eclipsekit.errors import EclipsekitWarning, InputError
@@ -22,25 +22,6 @@ from eclipsekit.spectroscopy import OrbitFit, fit_velocities
 
 
 # --- independent reference model ----------------------------------------------------------
-def textbook_velocity(time, *, period, t0, k, gamma, e, omega_deg, sign=+1.0):
-    """Radial velocity of one star (Hilditch 2001, eq. 2.45): gamma + sign K [cos(nu + w) + e cos w].
-
-    t0 is the primary conjunction, where nu + w = 90 deg (primary behind its companion).
-    Kepler's equation M = E - e sin E is solved point by point with brentq.
-    """
-    w = np.radians(omega_deg)
-    nu0 = np.pi / 2 - w
-    e_anom0 = 2 * np.arctan2(np.sqrt(1 - e) * np.sin(nu0 / 2), np.sqrt(1 + e) * np.cos(nu0 / 2))
-    mean0 = e_anom0 - e * np.sin(e_anom0)
-    out = np.empty(np.size(time))
-    for i, t in enumerate(np.atleast_1d(time)):
-        mean = (mean0 + 2 * np.pi * (t - t0) / period) % (2 * np.pi)
-        ecc_anom = brentq(lambda x: x - e * np.sin(x) - mean, 0.0, 2 * np.pi, xtol=1e-14)
-        nu = 2 * np.arctan2(np.sqrt(1 + e) * np.sin(ecc_anom / 2), np.sqrt(1 - e) * np.cos(ecc_anom / 2))
-        out[i] = gamma + sign * k * (np.cos(nu + w) + e * np.cos(w))
-    return out
-
-
 class Ephemeris:
     """Duck-typed light-curve ephemeris (values / uncertainties dicts)."""
 
