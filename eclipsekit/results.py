@@ -189,7 +189,8 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
     if fit is None:
         return section
     section.update({
-        "method": "least squares (lmfit)",
+        "method": ("joint least squares of light curve and velocities (lmfit)"
+                   if getattr(fit, "orbit", None) is not None else "least squares (lmfit)"),
         "uncertainties": fit.errors_method,
         "reduced_chi_square": _finite_or_none(fit.redchi),
         "rms": quantity(fit.rms, None, ""),
