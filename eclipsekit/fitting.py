@@ -874,8 +874,12 @@ def fit_eclipses(
         Fit the data near the eclipses point by point and the rest binned by 10
         (equivalent, faster); default: when the windows hold under 60% of the data.
     mcmc_walkers, mcmc_steps, mcmc_burn, mcmc_thin :
-        emcee settings; burn-in defaults to a quarter of the steps, thinning to half the
-        longest autocorrelation time.
+        emcee settings.  The walkers start as draws from the covariance (scaled by the
+        reduced chi-square); burn-in defaults to a tenth of the steps or 3 autocorrelation
+        times, whichever is longer (at most half the chain); thinning to half the longest
+        autocorrelation time.  ``diagnostics["mcmc"]`` reports the autocorrelation times,
+        the effective number of independent samples and the Monte-Carlo error of the
+        uncertainties (a warning when it exceeds 5%).
     n_samples : int
         Number of samples kept (draws from the covariance; at most this many from the chain).
     n_shifts : int, optional
@@ -1372,7 +1376,12 @@ def fit_eclipses(
         nvar = len(free_names)
         nwalk = max(int(mcmc_walkers), 2 * nvar + 2)
         pos = np.empty((nwalk, nvar))
-        ball = (cov / max(redchi_fit, 1e-300) * scale ** 2 if cov is not None else np.eye(nvar) * 1e-8) * 0.25
+        # walkers start as draws from the Laplace approximation itself (the covariance, already scaled by the
+        # reduced chi-square like the errors used here): its widths match the posterior's within ~5% on the
+        # calibration systems (scripts/calibrate_errors.py), so the ensemble starts near stationarity and
+        # the burn-in only has to absorb the non-Gaussian part.  (A ball of half the widths also spread out
+        # within ~25 steps, so it was not what limited the coverage; it only wasted burn-in.)
+        ball = cov if cov is not None else np.eye(nvar) * 1e-8
         k = 0
         for _ in range(100):
             draw = fold(rng.multivariate_normal(xbest, ball, size=nwalk, method="eigh"))
@@ -1385,33 +1394,65 @@ def fit_eclipses(
         if k < nwalk:
             pos[k:] = np.clip(xbest, lo_int + 1e-9 * (hi_int - lo_int), hi_int - 1e-9 * (hi_int - lo_int))
         mini = lmfit.Minimizer(pr.log_posterior, p, nan_policy="propagate")
-        burn = int(mcmc_burn) if mcmc_burn is not None else int(mcmc_steps) // 4
-        if not 0 <= burn < mcmc_steps:
+        steps = int(mcmc_steps)
+        # default burn-in: a tenth of the chain (the walkers start from the Laplace approximation), extended
+        # below to 3 autocorrelation times when tau turns out longer ("a few tau" of burn-in: emcee
+        # documentation, autocorrelation tutorial, from memory)
+        burn = int(mcmc_burn) if mcmc_burn is not None else steps // 10
+        if not 0 <= burn < steps:
             raise InputError(f"`mcmc_burn` must be in [0, mcmc_steps), got {burn}")
         t_mc = _time.perf_counter()
         with contextlib.redirect_stdout(io.StringIO()):  # lmfit prints emcee's short-chain notice
-            mres = mini.emcee(params=p, steps=int(mcmc_steps), nwalkers=nwalk, burn=burn, thin=1, pos=pos,
+            mres = mini.emcee(params=p, steps=steps, nwalkers=nwalk, burn=burn, thin=1, pos=pos,
                               float_behavior="posterior", seed=None if seed is None else int(seed),
                               progress=progress)
         diag["mcmc_seconds"] = _time.perf_counter() - t_mc
-        chain = mini.sampler.get_chain(discard=burn)  # (steps - burn, walkers, nvar)
-        emcee_log = logging.getLogger("emcee")
-        level = emcee_log.level
-        emcee_log.setLevel(logging.ERROR)  # the short-chain notice is reported below, as a warning
-        try:
-            tau = emcee.autocorr.integrated_time(chain, quiet=True) if chain.shape[0] > 1 else np.full(nvar, np.nan)
-        finally:
-            emcee_log.setLevel(level)
+
+        def autocorr(discard: int) -> np.ndarray:
+            ch = mini.sampler.get_chain(discard=discard)  # (steps - discard, walkers, nvar)
+            if ch.shape[0] < 2:
+                return np.full(nvar, np.nan)
+            emcee_log = logging.getLogger("emcee")
+            level = emcee_log.level
+            emcee_log.setLevel(logging.ERROR)  # the short-chain notice is reported below, as a warning
+            try:
+                return emcee.autocorr.integrated_time(ch, quiet=True)
+            finally:
+                emcee_log.setLevel(level)
+
+        tau = autocorr(burn)
+        if mcmc_burn is None and np.isfinite(np.nanmax(tau)):
+            need = min(int(math.ceil(3 * np.nanmax(tau))), steps // 2)
+            if need > burn:
+                burn = need
+                tau = autocorr(burn)
+                mres.chain = mini.sampler.get_chain(discard=burn)  # keep the lmfit result consistent
+                mres.lnprob = mini.sampler.get_log_prob(discard=burn)
         tau_max = float(np.nanmax(tau))
         thin = int(mcmc_thin) if mcmc_thin is not None else max(1, int(tau_max / 2)) if math.isfinite(tau_max) else 1
         flat = mini.sampler.get_chain(discard=burn, thin=thin, flat=True)
-        n_tau = chain.shape[0] / tau_max if tau_max > 0 else np.inf
+        n_kept = steps - burn
+        n_tau = n_kept / tau_max if tau_max > 0 else np.inf
+        # what the chain length must buy is a precise 1-sigma interval: with n_eff independent draws the half
+        # width of the 15.9-84.1% interval of a Gaussian scatters by 0.96 sigma / sqrt(n_eff) (asymptotic
+        # (co)variance of sample quantiles, p_a (1 - p_b) / (n f_a f_b); Cramer 1946, Mathematical Methods of
+        # Statistics, ch. 28, from memory; 0.96 evaluated here for p = 0.159, 0.841 of a Gaussian)
+        n_eff = nwalk * n_kept / tau_max if tau_max > 0 else np.inf
+        mc_err = 0.96 / math.sqrt(n_eff) if n_eff > 0 else np.inf
         acc = float(np.mean(mini.sampler.acceptance_fraction))
-        diag["mcmc"] = {"walkers": nwalk, "steps": int(mcmc_steps), "burn": burn, "thin": thin,
+        diag["mcmc"] = {"walkers": nwalk, "steps": steps, "burn": burn, "thin": thin,
                         "autocorr_time": dict(zip(free_names, map(float, tau))), "chain_over_tau": float(n_tau),
+                        "n_effective": float(n_eff), "uncertainty_mc_error": float(mc_err),
+                        # emcee's own criterion for trusting the tau estimate (integrated_time's tol=50)
+                        "autocorr_reliable": bool(n_tau >= 50),
                         "acceptance_fraction": acc, "error_scale": scale}
-        if n_tau < 50:
-            warn_list.append(f"MCMC chain after burn-in is {n_tau:.0f} autocorrelation times long (< 50): "
+        # warn when the quoted uncertainties carry > 5% Monte-Carlo error, or when the chain is so short (< 20
+        # tau, a judgement call) that tau itself, and with it n_eff, is likely underestimated.  (Before, any
+        # chain under 50 tau warned: the default 32 x 2000 chain, ~25 tau at tau ~ 65, warned on every run
+        # although its 1-sigma intervals have ~3% Monte-Carlo error and match the covariance errors.)
+        if mc_err > 0.05 or n_tau < 20:
+            warn_list.append(f"MCMC chain after burn-in is {n_tau:.0f} autocorrelation times long, ~{n_eff:.0f} "
+                             f"independent samples ({100 * mc_err:.0f}% Monte-Carlo error on the uncertainties): "
                              f"run more steps (longest tau {tau_max:.0f} steps, {free_names[int(np.nanargmax(tau))]})")
         if not 0.1 < acc < 0.8:
             warn_list.append(f"MCMC acceptance fraction {acc:.2f} is outside 0.1-0.8")
