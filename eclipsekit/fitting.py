@@ -44,7 +44,9 @@ from typing import Any, Iterable, Mapping
 
 import lmfit
 import numpy as np
+from astropy import units as u
 
+from ._validate import as_float, as_times
 from .data import LightCurve
 from .errors import EclipsekitWarning, FitError, InputError
 
@@ -126,25 +128,12 @@ def _unit(name: str) -> str:
 
 
 def _days(x: Any, name: str) -> float | None:
-    """Float days from a float, an astropy Quantity or an astropy Time (as JD)."""
+    """Float days from a float, an astropy Quantity or an astropy Time (as JD); None stays None."""
     if x is None:
         return None
     if hasattr(x, "jd") and not hasattr(x, "unit"):
-        return float(x.jd)
-    if hasattr(x, "unit"):
-        from astropy import units as u
-
-        try:
-            return float(x.to_value(u.day))
-        except Exception as exc:  # noqa: BLE001 - any unit error is bad input
-            raise InputError(f"`{name}` must be a time (days), got {x!r}") from exc
-    try:
-        v = float(x)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"`{name}` must be a number of days, got {x!r}") from exc
-    if not math.isfinite(v):
-        raise InputError(f"`{name}` must be finite, got {v}")
-    return v
+        return float(as_times(x, name))
+    return as_float(x, name, u.day)
 
 
 # --------------------------------------------------------------------------------------
@@ -766,6 +755,21 @@ def _window_mask(time: np.ndarray, v: Mapping[str, float], w1: float, w2: float,
     return out
 
 
+def _truncated_normal_draws(rng: np.random.Generator, mean: np.ndarray, cov: np.ndarray, n: int,
+                            lo: np.ndarray, hi: np.ndarray, fold: Any) -> np.ndarray:
+    """``n`` draws from N(mean, cov) truncated to the bounds [lo, hi] by redrawing (then clipped).
+
+    ``fold`` maps each draw to its equivalent geometry (e.g. i > 90 deg seen from the other side).
+    """
+    x = fold(rng.multivariate_normal(mean, cov, size=int(n), method="eigh"))
+    for _ in range(20):
+        out = np.any((x < lo) | (x > hi), axis=1)
+        if not out.any():
+            break
+        x[out] = fold(rng.multivariate_normal(mean, cov, size=int(out.sum()), method="eigh"))
+    return np.clip(x, lo, hi)
+
+
 def _central_jacobian(pr: _Problem, free_names, internal_names, x, steps, bounds) -> np.ndarray | None:
     """Jacobian of the projected residuals by central differences (one-sided at a bound)."""
     base = {n: v for n, v in zip(internal_names, x)}
@@ -1359,13 +1363,7 @@ def fit_eclipses(
         if cov is None:
             x = np.repeat(xbest[None, :], n_samples, axis=0)
         else:
-            x = fold(rng.multivariate_normal(xbest, cov, size=n_samples, method="eigh"))
-            for _ in range(20):  # truncate at the physical bounds by redrawing
-                out = np.any((x < lo_int) | (x > hi_int), axis=1)
-                if not out.any():
-                    break
-                x[out] = fold(rng.multivariate_normal(xbest, cov, size=int(out.sum()), method="eigh"))
-            x = np.clip(x, lo_int, hi_int)
+            x = _truncated_normal_draws(rng, xbest, cov, n_samples, lo_int, hi_int, fold)
         samples = to_samples(x)
     elif errors == "mcmc":
         import emcee
@@ -1471,7 +1469,6 @@ def fit_eclipses(
         shifts = np.unique(np.round(np.linspace(0, n_pts, nsh + 1)[1:-1]).astype(int))
         shifts = np.concatenate([[0], shifts])
         model_full = m_full * base_full
-        full_sel = sel
         rows = []
         it = shifts
         if progress:

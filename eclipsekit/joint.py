@@ -40,7 +40,7 @@ from .dimensions import minimum_masses as _minimum_masses
 from .dimensions import projected_semi_major_axis as _asini
 from .errors import EclipsekitWarning, FitError, InputError
 from .fitting import (DERIVED, EclipseFit, _bounds, _central_jacobian, _depth_samples, _depths, _derived_from,
-                      _expand, _unit, fit_eclipses)
+                      _expand, _truncated_normal_draws, _unit, fit_eclipses)
 from .spectroscopy import _UNITS as _ORBIT_UNITS
 from .spectroscopy import OrbitFit, fit_velocities
 
@@ -329,13 +329,7 @@ def fit_joint(
             x[:, i_inc] = 90.0 - np.abs(x[:, i_inc] - 90.0)
         return x
 
-    x = fold(rng.multivariate_normal(xbest, cov, size=int(n_samples), method="eigh"))
-    for _ in range(20):  # truncate at the physical bounds by redrawing
-        out = np.any((x < lo_int) | (x > hi_int), axis=1)
-        if not out.any():
-            break
-        x[out] = fold(rng.multivariate_normal(xbest, cov, size=int(out.sum()), method="eigh"))
-    x = np.clip(x, lo_int, hi_int)
+    x = _truncated_normal_draws(rng, xbest, cov, n_samples, lo_int, hi_int, fold)
 
     lc_names = [n for n in lc_fit.values if n not in DERIVED]
     par_names = lc_names + vel_names
