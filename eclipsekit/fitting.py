@@ -801,6 +801,40 @@ def _central_jacobian(pr: _Problem, free_names, internal_names, x, steps, bounds
 # --------------------------------------------------------------------------------------
 # The fit
 # --------------------------------------------------------------------------------------
+def _limb_darkening_shift(lc: LightCurve, values: Mapping[str, float], unc: Mapping[str, float | None],
+                          free_names: list[str], redchi: float, *, ld_law: str, nld: int,
+                          **options: Any) -> dict[str, float]:
+    """What freeing the linear limb-darkening terms changes: one extra least-squares fit.
+
+    Returns the shift of each fitted geometric parameter in units of the fixed-LD fit's
+    sigma, and ``delta_chi2``: the chi-square improvement (noise-scaled by the freer fit's
+    reduced chi-square) for the two extra terms; {} when the refit fails.
+    """
+    from types import SimpleNamespace
+
+    free_check = list(free_names) + ["ld1_1", "ld2_1"]
+    fix_check = [n for n in _all_names(ld_law) if n not in free_check]
+    coeffs = {star: tuple(values[f"ld{star}_{j + 1}"] for j in range(nld)) for star in (1, 2)}
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", EclipsekitWarning)
+            refit = fit_eclipses(lc, SimpleNamespace(values=dict(values)), free=free_check, fix=fix_check,
+                                 ld_law=ld_law, ld_primary=coeffs[1], ld_secondary=coeffs[2], clip_sigma=None,
+                                 errors="covariance", n_samples=2, progress=False, check_limb_darkening=False,
+                                 **options)
+    except (FitError, InputError):
+        return {}
+    n = len(lc)
+    chi2_fixed = redchi * (n - len(free_names))
+    chi2_free = refit.redchi * (n - refit.n_free)
+    out = {"delta_chi2": float((chi2_fixed - chi2_free) / max(refit.redchi, 1e-300))}
+    for name in ("radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio"):
+        sigma = unc.get(name)
+        if name in free_names and sigma:
+            out[name] = float((refit.values[name] - values[name]) / sigma)
+    return out
+
+
 def fit_eclipses(
     lc: LightCurve,
     start: Any = None,
@@ -829,6 +863,7 @@ def fit_eclipses(
     seed: int | None = None,
     velocities: Any = None,
     separate_gamma: bool = False,
+    check_limb_darkening: bool = True,
     **values: Any,
 ) -> EclipseFit:
     """Fit both eclipses of a detached eclipsing binary (optionally jointly with velocities).
@@ -888,6 +923,11 @@ def fit_eclipses(
         Number of samples kept (draws from the covariance; at most this many from the chain).
     n_shifts : int, optional
         Permutation fits (default 100, at most the number of points).
+    check_limb_darkening : bool
+        When the first limb-darkening coefficient of both stars is held fixed, refit once
+        with them free and warn if r1 + r2, k, i or J then move by more than 3 sigma:
+        fixed limb darkening that does not match the data biases the geometry by more
+        than its formal errors (deep, well-sampled eclipses constrain it).
     progress : bool
         Show progress bars (MCMC, permutation).
     seed : int, optional
@@ -1572,6 +1612,21 @@ def fit_eclipses(
                          f"({diag.get('redchi_reference', 1.0):.2f}): the model does not describe the eclipses well")
     if not success:
         warn_list.append(f"fit did not converge cleanly: {message}")
+    if check_limb_darkening and ld_law != "uniform" and not {"ld1_1", "ld2_1"} & set(free_names):
+        shift = _limb_darkening_shift(
+            lc_work, ordered, unc, free_names, float(redchi), ld_law=ld_law, nld=nld, exposure_time=exp_d,
+            supersample=supersample, baseline_degree=baseline_degree, gap=gap, window=window)
+        diag["limb_darkening_check"] = shift
+        dchi2 = shift.get("delta_chi2", 0.0)
+        moved = {k: v for k, v in shift.items() if k != "delta_chi2" and abs(v) > 3.0}
+        # warn only when the data significantly prefer other coefficients (chi-square drop for 2 extra terms
+        # above 13.8, the 0.1% point of chi2 with 2 degrees of freedom; standard tables) AND that moves the
+        # geometry by more than 3 of its quoted sigmas; right coefficients give a drop ~ chi2(2)
+        if moved and dchi2 > 13.8:
+            worst = ", ".join(f"{k} by {v:+.1f} sigma" for k, v in sorted(moved.items(), key=lambda kv: -abs(kv[1])))
+            warn_list.append(f"limb darkening is held fixed at {ordered['ld1_1']:g}/{ordered['ld2_1']:g} (linear "
+                             f"terms) but the data prefer other values (chi-square drop {dchi2:.0f} for 2 terms), "
+                             f"which moves {worst}: free ld1_1 ld2_1, or give coefficients that suit these stars")
     for wmsg in warn_list:
         warnings.warn(wmsg, EclipsekitWarning, stacklevel=2)
 

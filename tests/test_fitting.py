@@ -427,3 +427,15 @@ def test_start_from_a_period_search_object():
     fit = fit_eclipses(lc, search, ld_primary=ECCENTRIC["ld_primary"], ld_secondary=ECCENTRIC["ld_secondary"],
                        progress=False)
     assert abs(fit.values["radius_sum"] - ECCENTRIC["radius_sum"]) < 3 * fit.uncertainties["radius_sum"]
+
+
+def test_warns_when_fixed_limb_darkening_is_wrong():
+    # made with the total system's coefficients, fitted with limb darkening fixed far from them:
+    # the check refits with the linear terms free and must flag the bias (chi-square drop above the
+    # 0.1% point of chi2 with 2 degrees of freedom, 13.8; standard tables)
+    t, f = _clean_curve("total")
+    lc = _lc(t, f, 3e-4, np.random.default_rng(5))
+    start = _measured_start(t, f, TOTAL["period"], TOTAL["t0"])
+    fit = fit_eclipses(lc, start, ld_primary=(0.1, 0.0), ld_secondary=(0.9, 0.0), progress=False)
+    assert any("limb darkening is held fixed" in w for w in fit.warnings)
+    assert fit.diagnostics["limb_darkening_check"]["delta_chi2"] > 13.8
