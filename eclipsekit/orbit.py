@@ -36,7 +36,7 @@ from ._validate import as_float, as_times
 from .errors import GeometryError
 
 __all__ = ["solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase",
-           "radial_velocities", "eccentricity_omega"]
+           "radial_velocities", "eccentricity_omega", "orbital_phase"]
 
 _TWO_PI = 2.0 * np.pi
 _KMS = u.km / u.s
@@ -376,3 +376,11 @@ def radial_velocities(time, *, period, t0, k_primary: float, k_secondary: float 
     rv1 = gam + k1 * shape
     rv2 = None if k_secondary is None else gam - kms(k_secondary, "k_secondary") * shape
     return rv1, rv2
+
+
+def orbital_phase(time, period: float, t0: float, start: float = 0.0) -> np.ndarray:
+    """Orbital phase of ``time`` in [start, start + 1), 0 at the primary eclipse ``t0``.
+
+    All in days; ``start = -0.25`` keeps the primary eclipse clear of the edges of a plot.
+    """
+    return np.mod((np.asarray(time, float) - t0) / period - start, 1.0) + start

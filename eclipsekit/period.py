@@ -46,6 +46,7 @@ from ._grid import Q_MAX, bin_in_time, frequency_grid, min_duty_cycle, period_ba
 from ._pdm import pdm_theta
 from ._validate import as_float
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
+from .orbit import orbital_phase
 
 __all__ = ["PeriodSearch", "find_period", "SDE_THRESHOLD", "PDM_SDE_THRESHOLD"]
 
@@ -179,8 +180,7 @@ class PeriodSearch:
 
     def phase(self, time) -> np.ndarray:
         """Orbital phase of ``time`` (days) in [-0.5, 0.5), primary eclipse at 0."""
-        time = np.asarray(getattr(time, "value", time), float)
-        return np.mod((time - self.t0) / self.period + 0.5, 1.0) - 0.5
+        return orbital_phase(getattr(time, "value", time), self.period, self.t0, -0.5)
 
     def summary(self) -> str:
         """A readable multi-line report."""
@@ -418,10 +418,6 @@ def _top_peaks(freq, score, n, sep=0.01) -> list[int]:
 # ----------------------------------------------------------------------------------------
 # fold diagnostics at one trial period
 # ----------------------------------------------------------------------------------------
-def _phase(t, period, t0):
-    return np.mod((t - t0) / period + 0.5, 1.0) - 0.5
-
-
 def _box_depth(y, w, inbox, ref):
     """Weighted depth (mean of ``ref`` minus mean in box), its error, and point count."""
     sw_in, sw_ref = w[inbox].sum(), w[ref].sum()
@@ -567,7 +563,7 @@ def _odd_even(ph, y, w, epoch, half, ref, n_template=24):
 
 def _evaluate(t, y, w, period, t0, duration, *, pdm_n=None):
     """Fold at ``period`` and measure everything the decision needs (see module notes)."""
-    ph = _phase(t, period, t0)
+    ph = orbital_phase(t, period, t0, -0.5)
     q1 = duration / period
     in1 = np.abs(ph) < q1 / 2
     # the box is shorter than a limb-darkened or V-shaped eclipse: measure how far the dip
@@ -644,11 +640,11 @@ def _fit_trapezoids(t, y, dy, ev, df_local):
     P0, T0 = ev["period"], ev["t0"]
     D10 = max(ev["duration"], ev["extent1"] / 1.15)  # full dip width, not the box
     sec = ev["secondary"]
-    x1 = _phase(t, P0, T0) * P0
+    x1 = orbital_phase(t, P0, T0, -0.5) * P0
     sel = np.abs(x1) < 1.5 * D10
     if sec:
         D20 = ev["width2"]
-        x2 = _phase(t, P0, T0 + ev["phase2"] * P0) * P0
+        x2 = orbital_phase(t, P0, T0 + ev["phase2"] * P0, -0.5) * P0
         sel |= np.abs(x2) < 1.5 * D20
     tt, yy, ee = t[sel], y[sel], dy[sel]
     dP = 4 * df_local * P0 ** 2  # period window: about the local BLS span
@@ -663,10 +659,10 @@ def _fit_trapezoids(t, y, dy, ev, df_local):
 
     def model(p, tt):
         P, T, c, d1, D1, s1 = p[:6]
-        m = 1.0 - d1 * _trap(_phase(tt, P, T) * P, D1 / 2, max(s1 * D1 / 2, 1e-9))
+        m = 1.0 - d1 * _trap(orbital_phase(tt, P, T, -0.5) * P, D1 / 2, max(s1 * D1 / 2, 1e-9))
         if sec:
             phi2, d2, D2, s2 = p[6:]
-            m = m - d2 * _trap(_phase(tt, P, T + phi2 * P) * P, D2 / 2, max(s2 * D2 / 2, 1e-9))
+            m = m - d2 * _trap(orbital_phase(tt, P, T + phi2 * P, -0.5) * P, D2 / 2, max(s2 * D2 / 2, 1e-9))
         return c * m
 
     def resid(p):
@@ -994,7 +990,7 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
                    "the period is not constrained", table)
     # eclipse or smooth modulation?  Fit a 2-harmonic sinusoid at P, then the primary box on the residuals.
     dchi_sin, resid = _fourier_dchi2(t, y, w, ev["period"])
-    ph = _phase(t, ev["period"], ev["t0"])
+    ph = orbital_phase(t, ev["period"], ev["t0"], -0.5)
     in1 = np.abs(ph) < 0.5 * ev["duration"] / ev["period"]
     ref = np.abs(ph) >= max(0.5 * ev["extent1"], 0.75 * ev["duration"]) / ev["period"]
     dr, er = _box_depth(resid, w, in1, ref)

@@ -21,6 +21,7 @@ from astropy.table import Table
 from ._validate import as_float
 from .data import LightCurve, VelocityCurve, read_light_curve, read_velocities
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
+from .orbit import orbital_phase
 
 __all__ = ["Analysis", "analyse", "LONG_CADENCE"]
 
@@ -153,7 +154,7 @@ class Analysis:
         table["residual"] = lc.flux - model
         table["detrended_flux"] = detrended
         period, t0 = self._ephemeris()
-        table["phase"] = np.mod((lc.time - t0) / period + 0.25, 1.0) - 0.25 if period else np.nan
+        table["phase"] = orbital_phase(lc.time, period, t0, -0.25) if period else np.nan
         table["rejected"] = ~used
         table["reason"] = reason.astype(str)
         table["time"].unit = "d"
@@ -182,7 +183,7 @@ class Analysis:
                 table["residual_rv2"] = rv.rv2 - m2
         period, t0 = self._ephemeris()
         if period:
-            table["phase"] = np.mod((rv.time - t0) / period, 1.0)
+            table["phase"] = orbital_phase(rv.time, period, t0)
         for col in table.colnames:
             if col != "phase":
                 table[col].unit = "d" if col == "time" else "km / s"

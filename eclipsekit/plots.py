@@ -16,6 +16,8 @@ import numpy as np
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, LogLocator
 
+from .orbit import orbital_phase
+
 __all__ = [
     "PALETTE",
     "plot_periodograms",
@@ -105,7 +107,7 @@ def plot_periodograms(search: Any, lc: Any = None) -> Figure:
     if lc is not None:
         ax3 = axes[2]
         if found:
-            phase = _phase(lc.time, period, search.t0)
+            phase = orbital_phase(lc.time, period, search.t0, -0.25)
             ax3.plot(phase, lc.flux, ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True)
             bx, by = _binned(phase, lc.flux, 400, -0.25, 0.75)
             ax3.plot(bx, by, ".", ms=2.0, color=PALETTE["blue"])
@@ -116,10 +118,6 @@ def plot_periodograms(search: Any, lc: Any = None) -> Figure:
             ax3.set_xlabel("Time (d)")
         ax3.set_ylabel("Relative flux")
     return fig
-
-
-def _phase(time: np.ndarray, period: float, t0: float, start: float = -0.25) -> np.ndarray:
-    return np.mod((time - t0) / period - start, 1.0) + start
 
 
 def _eclipse_geometry(fit: Any) -> dict[str, float]:
@@ -144,7 +142,7 @@ def plot_folded_light_curve(fit: Any) -> Figure:
     v = fit.values
     period, t0 = v["period"], v["t0"]
     time = fit.lc.time
-    phase = _phase(time, period, t0)
+    phase = orbital_phase(time, period, t0, -0.25)
     flux = fit.detrended_flux
     model_at_data = fit.model(time)
     grid_phase = np.linspace(-0.25, 0.75, 4001)
@@ -185,7 +183,7 @@ def plot_eclipses(fit: Any) -> Figure:
     widths = (geom["width_primary"], geom["width_secondary"])
     for col, (name, centre, width) in enumerate(zip(("Primary", "Secondary"), centres, widths)):
         half = 0.8 * width if width > 0 else 0.05
-        phase = _phase(time, period, t0, start=centre - 0.5) - centre
+        phase = orbital_phase(time, period, t0, start=centre - 0.5) - centre
         near = np.abs(phase) < half
         top, bottom = axes[0, col], axes[1, col]
         grid = np.linspace(-half, half, 1500)
@@ -210,7 +208,7 @@ def plot_velocities(orbit: Any) -> Figure:
     """Radial velocities of both stars folded on the period, with the orbit and the residuals."""
     rv = orbit.rv
     period, t0 = orbit.values["period"], orbit.values["t0"]
-    phase = np.mod((rv.time - t0) / period, 1.0)
+    phase = orbital_phase(rv.time, period, t0)
     grid = np.linspace(0.0, 1.0, 1001)
     m1, m2 = orbit.model(t0 + grid * period)
     d1, d2 = orbit.model(rv.time)

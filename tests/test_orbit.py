@@ -200,3 +200,16 @@ def test_bad_orbit_rejected(kwargs, err):
     base.update(kwargs)
     with pytest.raises(err):
         sky_separation([0.0, 0.5], **base)
+
+
+@pytest.mark.parametrize("start", [0.0, -0.25, -0.5])
+def test_orbital_phase_range_and_zero_point(start):
+    from eclipsekit.orbit import orbital_phase
+
+    t = np.linspace(-10.0, 10.0, 1001)
+    ph = orbital_phase(t, 3.0, 1.0, start)
+    assert np.all((ph >= start) & (ph < start + 1.0))
+    # phase is time since t0 in periods, modulo one cycle (definition; common practice)
+    cycles = ph - (t - 1.0) / 3.0
+    np.testing.assert_allclose(cycles, np.round(cycles), atol=1e-12)
+    assert orbital_phase(1.0 + 7 * 3.0, 3.0, 1.0, start) == pytest.approx(0.0, abs=1e-12)
