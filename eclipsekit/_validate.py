@@ -16,7 +16,7 @@ from astropy import units as u
 
 from .errors import InputError
 
-__all__ = ["to_unit", "as_float", "as_times"]
+__all__ = ["to_unit", "as_float", "as_times", "finite_or_none"]
 
 # How a unit is named in messages: (what the argument must be, what a plain number means).
 _UNIT_WORDS = {
@@ -144,3 +144,14 @@ def as_times(values: Any, name: str = "time") -> np.ndarray:
     if isinstance(values, u.Quantity):
         values = to_unit(values, u.day, name)
     return np.asarray(values, dtype=float)
+
+
+def finite_or_none(value: Any) -> float | None:
+    """``value`` as a float when it is a finite number, else None (JSON has no NaN or infinity)."""
+    if value is None:
+        return None
+    try:
+        value = float(value)
+    except (TypeError, ValueError):
+        return None
+    return value if math.isfinite(value) else None

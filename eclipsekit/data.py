@@ -31,6 +31,7 @@ from astropy.time import Time
 from astropy.utils.exceptions import AstropyWarning
 
 from . import _columns
+from ._validate import finite_or_none
 from .errors import EclipsekitWarning, InputError
 
 __all__ = ["sample_paths", "LightCurve", "VelocityCurve", "read_light_curve", "read_velocities", "magnitudes_to_flux",
@@ -158,20 +159,20 @@ class LightCurve(_Series):
             "input_kind": self.meta.get("input_kind"),
             "passband": self.meta.get("passband"),
             "time_system": self.meta.get("time_system"),
-            "time_offset": _json_float(self.meta.get("time_offset")),
-            "exposure_time": _json_float(self.meta.get("exposure_time")),
-            "normalisation": _json_float(self.meta.get("normalisation")),
+            "time_offset": finite_or_none(self.meta.get("time_offset")),
+            "exposure_time": finite_or_none(self.meta.get("exposure_time")),
+            "normalisation": finite_or_none(self.meta.get("normalisation")),
             "flux_err_estimated": bool(self.meta.get("flux_err_estimated", False)),
             "n_rows": _json_int(self.meta.get("n_rows")),
             "n_points": len(self),
             "n_rejected": self.n_rejected,
             "rejected": {k: int(v.size) for k, v in self.rejected.items()},
-            "time_start": _json_float(self.time[0]) if len(self) else None,
-            "time_end": _json_float(self.time[-1]) if len(self) else None,
+            "time_start": finite_or_none(self.time[0]) if len(self) else None,
+            "time_end": finite_or_none(self.time[-1]) if len(self) else None,
             "time_span": self.baseline,
-            "median_cadence": _json_float(self.cadence),
+            "median_cadence": finite_or_none(self.cadence),
             "largest_gaps": _largest_gaps(self.time),
-            "median_flux_err": _json_float(np.median(self.flux_err)) if len(self) else None,
+            "median_flux_err": finite_or_none(np.median(self.flux_err)) if len(self) else None,
             "notes": list(self.meta.get("notes") or []),
         }
 
@@ -268,7 +269,7 @@ class VelocityCurve(_Series):
             "format": self.meta.get("format"),
             "columns": dict(self.meta.get("columns") or {}),
             "time_system": self.meta.get("time_system"),
-            "time_offset": _json_float(self.meta.get("time_offset")),
+            "time_offset": finite_or_none(self.meta.get("time_offset")),
             "n_rows": _json_int(self.meta.get("n_rows")),
             "n_epochs": len(self),
             "n_primary": int(np.isfinite(self.rv1).sum()),
@@ -276,11 +277,11 @@ class VelocityCurve(_Series):
             "double_lined": self.double_lined,
             "n_rejected": self.n_rejected,
             "rejected": {k: int(v.size) for k, v in self.rejected.items()},
-            "time_start": _json_float(self.time[0]) if len(self) else None,
-            "time_end": _json_float(self.time[-1]) if len(self) else None,
+            "time_start": finite_or_none(self.time[0]) if len(self) else None,
+            "time_end": finite_or_none(self.time[-1]) if len(self) else None,
             "time_span": self.baseline,
-            "median_rv1_err": _json_float(np.nanmedian(self.rv1_err)) if np.isfinite(self.rv1_err).any() else None,
-            "median_rv2_err": _json_float(np.nanmedian(self.rv2_err)) if np.isfinite(self.rv2_err).any() else None,
+            "median_rv1_err": finite_or_none(np.nanmedian(self.rv1_err)) if np.isfinite(self.rv1_err).any() else None,
+            "median_rv2_err": finite_or_none(np.nanmedian(self.rv2_err)) if np.isfinite(self.rv2_err).any() else None,
             "notes": list(self.meta.get("notes") or []),
         }
 
@@ -313,13 +314,6 @@ class VelocityCurve(_Series):
 # ---------------------------------------------------------------------------------
 # Summary helpers
 # ---------------------------------------------------------------------------------
-def _json_float(value: Any) -> float | None:
-    if value is None:
-        return None
-    value = float(value)
-    return value if math.isfinite(value) else None
-
-
 def _json_int(value: Any) -> int | None:
     return None if value is None else int(value)
 

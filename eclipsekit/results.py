@@ -8,7 +8,6 @@ folder and renamed into place, so an interrupted run never leaves a half-written
 from __future__ import annotations
 
 import json
-import math
 import os
 import tempfile
 from collections.abc import Callable, Iterable, Mapping
@@ -18,6 +17,7 @@ from typing import Any
 import numpy as np
 from astropy.table import Table
 
+from ._validate import finite_or_none
 from .errors import InputError
 
 __all__ = [
@@ -67,19 +67,9 @@ SECTIONS: dict[str, dict[str, str]] = {
 _ONLY_WHEN_FITTED = {"gamma_offset", "jitter_primary", "jitter_secondary"}
 
 
-def _finite_or_none(x: Any) -> float | None:
-    if x is None:
-        return None
-    try:
-        x = float(x)
-    except (TypeError, ValueError):
-        return None
-    return x if math.isfinite(x) else None
-
-
 def quantity(value: Any, uncertainty: Any = None, unit: str = "") -> dict[str, Any]:
     """One quantity in the ``result.json`` form."""
-    return {"value": _finite_or_none(value), "uncertainty": _finite_or_none(uncertainty), "unit": unit}
+    return {"value": finite_or_none(value), "uncertainty": finite_or_none(uncertainty), "unit": unit}
 
 
 def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]:
@@ -102,7 +92,7 @@ def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]
                 continue
             # fit statistics such as rms_primary are attributes rather than fitted values
             value = values.get(name, getattr(src, name, None))
-            if _finite_or_none(value) is not None:
+            if finite_or_none(value) is not None:
                 out[name] = quantity(value, uncs.get(name), unit)
     return out
 
@@ -192,9 +182,9 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
         "method": ("joint least squares of light curve and velocities (lmfit)"
                    if getattr(fit, "orbit", None) is not None else "least squares (lmfit)"),
         "uncertainties": fit.errors_method,
-        "reduced_chi_square": _finite_or_none(fit.redchi),
+        "reduced_chi_square": finite_or_none(fit.redchi),
         "rms": quantity(fit.rms, None, ""),
-        "bic": _finite_or_none(fit.bic),
+        "bic": finite_or_none(fit.bic),
         "n_free_parameters": int(fit.n_free),
         "free_parameters": list(fit.free),
         "n_samples": int(len(next(iter(fit.samples.values())))) if fit.samples else 0,
@@ -205,10 +195,10 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
     })
     mcmc = getattr(fit, "mcmc", None)
     if mcmc:
-        section["mcmc"] = {k: (_finite_or_none(v) if isinstance(v, (int, float, np.floating)) else v)
+        section["mcmc"] = {k: (finite_or_none(v) if isinstance(v, (int, float, np.floating)) else v)
                            for k, v in mcmc.items()}
     if analysis.orbit is not None:
-        section["velocity_fit_reduced_chi_square"] = _finite_or_none(getattr(analysis.orbit, "redchi", None))
+        section["velocity_fit_reduced_chi_square"] = finite_or_none(getattr(analysis.orbit, "redchi", None))
     return section
 
 
