@@ -232,7 +232,7 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
         from .data import read_velocities
 
         rv = read_velocities(args.rv)
-        orbit = fit_velocities(rv, light)
+        orbit = fit_velocities(rv, light, seed=args.seed)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", EclipsekitWarning)
         dims = absolute_dimensions(light, orbit, k_primary=args.k1, k_secondary=args.k2, teff_primary=args.teff1,

@@ -328,7 +328,7 @@ def analyse(
                 analysis.orbit = analysis.eclipse_fit.orbit
             elif velocities is not None:
                 with _Timer(timings, "velocity fit"):
-                    analysis.orbit = fit_velocities(velocities, analysis.eclipse_fit)
+                    analysis.orbit = fit_velocities(velocities, analysis.eclipse_fit, seed=seed)
             if analysis.orbit is not None or k_primary is not None:
                 with _Timer(timings, "absolute dimensions"):
                     analysis.dimensions = absolute_dimensions(
