@@ -9,7 +9,7 @@ only approximation is the cell coverage at the occulting limb, which is anti-ali
 cell size.  ``test_brute_force_reference_*`` checks it against the exact
 circle-circle overlap area.
 
-Conventions are those of DESIGN.md, derived here from first principles:
+Conventions are the package's own (documented in the README), derived here from first principles:
 
 * the primary eclipse (star 1 behind star 2) happens at true anomaly
   nu = 90 deg - omega, omega being the argument of periastron of star 1's orbit and

@@ -79,7 +79,7 @@ CASES = _cases()
 
 @pytest.mark.parametrize("law,coeffs", LAWS)
 def test_occulted_fraction_vs_2d_integration(law, coeffs):
-    # brute-force 2-D scipy.integrate reference; target 1 ppm of total flux (issue 3).  The hidden
+    # brute-force 2-D scipy.integrate reference; target 1 ppm of total flux (our requirement).  The hidden
     # fraction of one star bounds the error in units of the total flux (its light share is <= 1).
     ref = np.array([_hidden_reference(z, p, law, coeffs) for z, p in CASES])
     direct = np.array([occulted_fraction(z, p, law, coeffs) for z, p in CASES])
@@ -145,7 +145,7 @@ def test_uniform_total_and_annular_depths():
 
 
 def test_light_ratio():
-    # DESIGN.md: L2 / L1 = J k^2
+    # L2 / L1 = J k^2: our J is the disc-averaged surface brightness ratio, times the area ratio k^2
     assert light_ratio(0.8, 0.5) == pytest.approx(0.32, rel=1e-15)
 
 
@@ -154,7 +154,7 @@ def test_light_ratio():
                                         ld_primary=(0.6, 0.5), ld_secondary=(0.7, 0.6))])
 def test_model_flux_vs_2d_integration(extra):
     # end to end: each in-eclipse point against the scipy.integrate reference at the projected
-    # separation of the orbit; error in units of the total flux < 1 ppm (issue 3)
+    # separation of the orbit; error in units of the total flux < 1 ppm (our requirement)
     kw = dict(BASE, **extra)
     t1, t2 = conjunction_times(period=kw["period"], t0=kw["t0"], ecosw=kw.get("ecosw", 0.0),
                                esinw=kw.get("esinw", 0.0), inclination=kw["inclination"])
@@ -191,7 +191,7 @@ def test_flux_is_one_out_of_eclipse():
 
 
 def test_third_light_and_zero_surface_brightness():
-    # third light l3 scales all depths by (1 - l3) (definition, DESIGN.md); J = 0: dark star 2,
+    # third light l3 scales all depths by (1 - l3) (our definition of third light); J = 0: dark star 2,
     # no secondary eclipse (common practice)
     t = np.linspace(0, 2.7, 5001)
     f0 = model_flux(t, **BASE)
@@ -219,7 +219,7 @@ def test_swapping_the_stars():
 
 
 def test_exposure_smearing_converges():
-    # supersample 101 vs 11 at a 30-minute exposure: < 10 ppm (issue 3).  Gauss-Legendre split at
+    # supersample 101 vs 11 at a 30-minute exposure: < 10 ppm (our requirement).  Gauss-Legendre split at
     # the contacts converges spectrally: measured ~1e-9 at 11 nodes.
     t = np.linspace(0.2, 0.6, 801)
     kw = dict(BASE)

@@ -161,7 +161,7 @@ def analysis():
 def test_api_matches_design(analysis):
     import eclipsekit as ek
 
-    # ../shared/DESIGN.md: the public names users rely on
+    # the public names users rely on (our API)
     for name in ("read_light_curve", "find_period", "fit_eclipses", "read_velocities", "fit_velocities",
                  "absolute_dimensions", "model_flux", "analyse"):
         assert callable(getattr(ek, name)), name
