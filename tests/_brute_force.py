@@ -9,7 +9,7 @@ only approximation is the cell coverage at the occulting limb, which is anti-ali
 cell size.  ``test_brute_force_reference_*`` checks it against the exact
 circle-circle overlap area.
 
-Conventions are those of DESIGN.md, derived here from first principles:
+Conventions are the package's own (documented in the README), derived here from first principles:
 
 * the primary eclipse (star 1 behind star 2) happens at true anomaly
   nu = 90 deg - omega, omega being the argument of periastron of star 1's orbit and
@@ -117,6 +117,23 @@ def separation(phase_time: np.ndarray, *, period: float, e: float, omega_deg: fl
     return d, back1
 
 
+def reference_separation(time, *, period, t0, eccentricity=0.0, omega=90.0, inclination=90.0):
+    """Projected separation (units of a) and 'star 1 behind' flag, t0 at the minimum separation.
+
+    The time of periastron follows from the conjunction nu = 90 deg - omega; t0 is then moved to
+    the minimum of the projected separation (they differ when i < 90 deg and e > 0).
+    """
+    e = float(eccentricity)
+    w = np.radians(omega)
+    M_conj = _true_to_mean(np.pi / 2 - w, e)
+    t_peri = -M_conj * period / (2 * np.pi)  # periastron time if conjunction were at 0
+    kw = dict(period=period, e=e, omega_deg=omega, inclination=inclination)
+    res = optimize.minimize_scalar(lambda t: separation([t], t_peri=t_peri, **kw)[0][0],
+                                   bounds=(-0.05 * period, 0.05 * period), method="bounded",
+                                   options={"xatol": 1e-12 * period})
+    return separation(np.asarray(time, float), t_peri=t_peri - res.x + t0, **kw)
+
+
 def brute_force_flux(time, *, period, t0, radius_sum, radius_ratio, inclination, surface_brightness_ratio,
                      eccentricity=0.0, omega=90.0, third_light=0.0, ld_law="quadratic",
                      ld_primary=(0.4, 0.25), ld_secondary=(0.4, 0.25), n_r=300, n_theta=600):
@@ -126,19 +143,10 @@ def brute_force_flux(time, *, period, t0, radius_sum, radius_ratio, inclination,
     (minimum projected separation).
     """
     time = np.asarray(time, float)
-    e = float(eccentricity)
-    w = np.radians(omega)
     r1 = radius_sum / (1 + radius_ratio)
     r2 = radius_sum - r1
-    # time of periastron from the conjunction nu = 90 deg - omega, then refine t0 to the minimum separation
-    M_conj = _true_to_mean(np.pi / 2 - w, e)
-    t_peri = -M_conj * period / (2 * np.pi)  # periastron time if conjunction were at 0
-    kw = dict(period=period, e=e, omega_deg=omega, inclination=inclination)
-    res = optimize.minimize_scalar(lambda t: separation([t], t_peri=t_peri, **kw)[0][0],
-                                   bounds=(-0.05 * period, 0.05 * period), method="bounded",
-                                   options={"xatol": 1e-12 * period})
-    t_peri = t_peri - res.x + t0
-    d, back1 = separation(time, t_peri=t_peri, **kw)
+    d, back1 = reference_separation(time, period=period, t0=t0, eccentricity=eccentricity, omega=omega,
+                                    inclination=inclination)
     g1 = _grid(ld_law, tuple(ld_primary), n_r, n_theta)
     g2 = _grid(ld_law, tuple(ld_secondary), n_r, n_theta)
     lr = surface_brightness_ratio * radius_ratio ** 2  # L2/L1

@@ -71,7 +71,7 @@ def test_kepler_third_law_sun_earth():
 
 def test_standard_numerical_forms():
     # M sin^3 i = 1.036149e-7 (1-e^2)^{3/2} (K1+K2)^2 K2 P and a sin i = 1.976569e-2 (1-e^2)^{1/2} (K1+K2) P
-    # (issue 6; these follow from IAU 2015 Resolution B3 nominal GM_sun and R_sun)
+    # (these follow from IAU 2015 Resolution B3 nominal GM_sun and R_sun; checked from first principles below)
     assert MSIN3I_FACTOR == pytest.approx(1.036149e-7, rel=1e-6)
     assert ASINI_FACTOR == pytest.approx(1.976569e-2, rel=1e-6)
     p, k1, k2, e = 7.3, 84.2, 101.7, 0.23
@@ -114,12 +114,12 @@ def test_solar_luminosity_and_bolometric_magnitude():
 
 
 def test_parallax_distance():
-    # 1 arcsec -> 1 pc = 3.2616 light years (IAU 2015 B2 definition of the parsec: au / tan(1"))
+    # 1 arcsec -> 1 pc = 3.2616 light years (IAU 2015 Resolution B2: 1 pc = (648000 / pi) au exactly)
     d = distance_from_parallax(1 * u.arcsec)
     assert d == pytest.approx(1.0, rel=1e-12)
     ly = (d * u.pc).to_value(u.lyr)
     assert ly == pytest.approx(3.2616, abs=1e-4)
-    pc_first_principles = const.au / np.tan((1 * u.arcsec).to_value(u.rad))
+    pc_first_principles = const.au * 648000 / np.pi
     assert (pc_first_principles / (const.c * 365.25 * u.day)).to_value(u.one) == pytest.approx(3.2616, abs=1e-4)
     assert distance_from_parallax(10.0) == pytest.approx(100.0)  # floats are mas
 

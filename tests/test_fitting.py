@@ -141,19 +141,20 @@ def test_recovers_brute_force_truth(name):
                            seed=1, progress=False)
     assert fit.success
     assert ("ecosw" in fit.free) == (name == "eccentric")
-    # truth: the brute-force reference (tests/_brute_force.py, independent of eclipsekit's model);
-    # issue 5 asks for 3 sigma and 1%
+    # truth: the brute-force reference (tests/_brute_force.py, independent of eclipsekit's model); our
+    # requirement is 3 sigma and 1%.  The reference's own error (<= 7e-6 of the flux per point, see
+    # GRID) is 2% of the 3e-4 noise per point, so it moves the parameters by a few per cent of sigma at most
     for key in ("radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio"):
         truth, val, err = sys_[key], fit.values[key], fit.uncertainties[key]
         assert abs(val - truth) < 3 * err, (key, val, truth, err)
         assert abs(val - truth) < 0.01 * truth, (key, val, truth)
     if name == "eccentric":
         ec, es = _ecosw_esinw(sys_)
-        assert abs(fit.values["ecosw"] - ec) < 3 * fit.uncertainties["ecosw"] + 1e-4
+        assert abs(fit.values["ecosw"] - ec) < 3 * fit.uncertainties["ecosw"]
         assert abs(fit.values["esinw"] - es) < 3 * fit.uncertainties["esinw"]
         assert fit.values["omega"] == pytest.approx(sys_["omega"], abs=3 * fit.uncertainties["omega"])
     assert abs(fit.values["t0"] - (sys_["t0"] + round((fit.values["t0"] - sys_["t0"]) / sys_["period"])
-                                   * sys_["period"])) < 3 * fit.uncertainties["t0"] + 2e-5
+                                   * sys_["period"])) < 3 * fit.uncertainties["t0"]
     # white noise of the stated sigma: reduced chi-square 1 +- sqrt(2/N) (chi-square distribution); 5 sigma
     assert fit.redchi == pytest.approx(1.0, abs=5 * np.sqrt(2 / len(lc)))
 
@@ -166,7 +167,7 @@ def test_samples_and_derived_quantities_are_consistent():
     n = {v.size for v in fit.samples.values()}
     assert n == {500}
     s = fit.samples
-    # definitions (DESIGN.md): r1 + r2 = radius_sum, r2/r1 = k, L2/L1 = J k^2
+    # consistency of the derived quantities with our definitions: r1 + r2 = radius_sum, r2/r1 = k, L2/L1 = J k^2
     np.testing.assert_allclose(s["frac_radius_primary"] + s["frac_radius_secondary"], s["radius_sum"], rtol=1e-12)
     np.testing.assert_allclose(s["frac_radius_secondary"] / s["frac_radius_primary"], s["radius_ratio"], rtol=1e-12)
     np.testing.assert_allclose(s["light_ratio"], s["surface_brightness_ratio"] * s["radius_ratio"] ** 2, rtol=1e-12)
@@ -210,7 +211,9 @@ def test_drift_and_outliers_do_not_move_the_radii():
 
 
 def test_fitting_near_the_eclipses_is_equivalent():
-    # long gaps between eclipses: windows fitted point by point, the rest binned; results must match the full fit
+    # consistency test (windowed fit against the full fit of the same data), so the data may come from
+    # the package's own model: long gaps between eclipses, windows fitted point by point, the rest
+    # binned; results must match the full fit
     sys_ = dict(TOTAL, radius_sum=0.08, period=6.1, t0=BJD0 + 1.3)
     from eclipsekit.eclipse import model_flux
 
@@ -236,8 +239,9 @@ def test_fitting_near_the_eclipses_is_equivalent():
 # --------------------------------------------------------------------------------------
 @pytest.mark.slow
 def test_covariance_errors_are_calibrated():
-    # 50 noise realisations of one brute-force system; truth inside 1 sigma in 68% +- 10% (Gaussian 1-sigma
-    # coverage; issue 5's band, 1.5 binomial sigma for 50 trials; scripts/calibrate_errors.py runs 100)
+    # 50 noise realisations of one brute-force system; truth inside 1 sigma in 68.3% of them (Gaussian
+    # 1-sigma coverage).  Binomial sigma for 50 trials is sqrt(0.683 * 0.317 / 50) = 0.066; the band
+    # 0.58..0.78 is 1.5 of those (fixed seed; the three parameters share the realisations)
     t_all, f_all = _clean_curve("total")
     keep = slice(None, None, 4)  # 8-minute sampling keeps each fit fast
     t, f = t_all[keep], f_all[keep]
@@ -349,6 +353,8 @@ def test_no_eclipse_in_data_is_a_fit_error():
 
 
 def test_large_stars_trigger_validity_warning():
+    # consistency test of the warning (data from the package's own model; recovery of the geometry is
+    # tested against the brute-force reference above)
     from eclipsekit.eclipse import model_flux
 
     t = BJD0 + np.arange(0, 3.0, CADENCE)
@@ -395,7 +401,7 @@ def test_fit_error_names_what_failed(monkeypatch):
 
 
 def test_out_of_eclipse_variation_is_flagged():
-    # ellipsoidal-like variation (cos 4 pi phase, 5 ppt) is outside the spherical-star model (DESIGN.md "Validity")
+    # ellipsoidal-like variation (cos 4 pi phase, 5 ppt) is outside the spherical-star model, which must say so
     t_all, f_all = _clean_curve("total")
     t, f = t_all[::4], f_all[::4]
     phase = (t - TOTAL["t0"]) / TOTAL["period"]

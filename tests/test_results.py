@@ -78,7 +78,7 @@ def test_parameters_table_round_trip(tmp_path):
 
 
 def test_sections_match_design():
-    # ../shared/DESIGN.md: the quantities each section of result.json must be able to hold
+    # the quantities each section of result.json must be able to hold (our result schema)
     assert {"period", "t0"} <= set(SECTIONS["ephemeris"])
     assert {"radius_sum", "radius_ratio", "frac_radius_primary", "frac_radius_secondary", "inclination",
             "eccentricity", "omega", "ecosw", "esinw"} <= set(SECTIONS["geometry"])

@@ -52,7 +52,7 @@ def make_rv(seed=1, n=30, err1=0.8, err2=1.1, missing2=(), single=False, true=TR
 
 def test_textbook_model_circular_limit():
     # circular orbit: v1 = gamma - K sin(2 pi (t - t0) / P), falling through gamma at primary eclipse
-    # (DESIGN.md: RV positive receding, primary eclipse at nu = 90 deg - w; common practice)
+    # (our conventions: RV positive receding, primary eclipse at nu = 90 deg - w; common practice)
     t = np.linspace(0, 3, 7)
     v = textbook_velocity(t, period=3.0, t0=0.0, k=50.0, gamma=5.0, e=0.0, omega_deg=90.0)
     np.testing.assert_allclose(v, 5.0 - 50.0 * np.sin(2 * np.pi * t / 3.0), atol=1e-9)
