@@ -13,7 +13,7 @@ import sys
 import warnings
 from collections.abc import Sequence
 
-from . import __version__
+from ._version import __version__
 from .errors import EclipsekitError, EclipsekitWarning, InputError
 
 __all__ = ["main"]

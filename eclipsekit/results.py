@@ -18,6 +18,7 @@ import numpy as np
 from astropy.table import Table
 
 from ._validate import finite_or_none
+from ._version import __version__
 from .errors import InputError
 
 __all__ = [
@@ -99,8 +100,6 @@ def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]
 
 def result_dict(analysis: Any) -> dict[str, Any]:
     """Build the ``result.json`` content of an :class:`~eclipsekit.pipeline.Analysis`."""
-    from . import __version__
-
     lc = analysis.lc
     fit = analysis.eclipse_fit
     search = analysis.search
@@ -333,8 +332,6 @@ def load_result(path: str | os.PathLike, n_samples: int = 20000) -> ResultSummar
 def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: Iterable[str],
                       command: str | None = None) -> dict[str, Any]:
     """A read-back ``result.json`` with the spectroscopic and absolute sections added."""
-    from . import __version__
-
     content = dict(light.content)
     content["eclipsekit_version"] = __version__
     content["command"] = command
