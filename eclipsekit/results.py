@@ -31,7 +31,6 @@ __all__ = [
     "load_result",
     "ResultSummary",
     "dimensions_result",
-    "write_dimension_files",
 ]
 
 #: Which quantity goes in which section of ``result.json``, with its default unit
@@ -347,19 +346,3 @@ def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: 
     fit["warnings"] = warnings_
     content["fit"] = fit
     return content
-
-
-def write_dimension_files(out: str | os.PathLike, content: Mapping[str, Any], text: str, *, orbit: Any = None,
-                          dimensions: Any = None) -> list[Path]:
-    """Write ``result.json``, ``parameters.ecsv``, ``summary.txt``, velocities and figures for ``dimensions``."""
-    from .pipeline import Analysis
-
-    folder = Path(out)
-    analysis = Analysis(lc=None, rv=getattr(orbit, "rv", None), orbit=orbit, dimensions=dimensions)
-    written = [write_table(folder / "parameters.ecsv", parameters_table(content))]
-    if analysis.rv is not None:
-        written.append(write_table(folder / "velocities.ecsv", analysis.velocities_table()))
-    written.extend(analysis.plot(folder).values())
-    written.append(write_text(folder / "summary.txt", text))
-    written.append(write_json(folder / "result.json", content))
-    return written
