@@ -484,7 +484,10 @@ def _eccentricity_start(eph: dict[str, tuple[float | None, float | None]], ecosw
 
 
 def _start_values(data: _Velocities, setup: _OrbitSetup) -> tuple[np.ndarray, float, float]:
-    """Start values: the linear solution (gamma, K1, K2, gamma_offset) over an (e, omega) grid, and its e cos w, e sin w."""
+    """Start values: the best linear solution (gamma, K1, K2, gamma_offset) on an (e, omega) grid, with its e, omega.
+
+    Returns the coefficients and the grid point's e cos w, e sin w.
+    """
     w1 = np.where(data.m1, 1 / np.where(data.m1, data.e1, 1.0), 0.0)
     w2 = np.where(data.m2, 1 / np.where(data.m2, data.e2, 1.0), 0.0)
     if setup.fit_eccentricity and not setup.known_e:
