@@ -26,6 +26,7 @@ import numpy as np
 from . import _notes
 from ._validate import to_unit
 from .errors import InputError
+from .summary import format_value
 
 __all__ = [
     "AbsoluteDimensions",
@@ -356,11 +357,10 @@ class AbsoluteDimensions:
     def summary(self) -> str:
         lines = [f"Absolute dimensions ({self.n_samples} samples; median ± standard deviation)"]
         for k, v in self.values.items():
-            err = self.uncertainties.get(k)
-            err_s = "" if err is None else f" ± {err:.4g}"
             dom = self.budget.get(k, "")
             dom_s = f"   [{dom}]" if dom else ""
-            lines.append(f"  {k:26s} {v:12.5g}{err_s:14s} {self.units.get(k, ''):12s}{dom_s}")
+            text = format_value(v, self.uncertainties.get(k))
+            lines.append(f"  {k:<26s} {text:>24s} {self.units.get(k, ''):<12s}{dom_s}".rstrip())
         for star, chk in self.main_sequence.items():
             lines.append(f"  main-sequence check, {star}: L = {chk['luminosity']:.3g} L_sun vs "
                          f"{chk['ms_luminosity']:.3g} from M = {chk['mass']:.3g} M_sun "

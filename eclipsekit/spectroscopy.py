@@ -32,9 +32,11 @@ from .dimensions import mass_function as _mass_function
 from .dimensions import minimum_masses as _minimum_masses
 from .dimensions import projected_semi_major_axis as _asini
 from .errors import FitError, InputError
+from .summary import format_value
 
 __all__ = ["OrbitFit", "fit_velocities"]
 
+_FIXED_DIGITS = 11     # significant figures of a value shown without uncertainty (e.g. a fixed period)
 _E_MAX = 0.95          # e cos w, e sin w are boxed to +-0.95 and e is capped there in the model
 _UNITS = {"k_primary": "km / s", "k_secondary": "km / s", "gamma": "km / s", "gamma_offset": "km / s",
           "ecosw": "", "esinw": "", "eccentricity": "", "omega": "deg", "mass_ratio": "",
@@ -125,8 +127,10 @@ class OrbitFit:
             if not np.isfinite(val):
                 continue
             err = self.uncertainties.get(k)
-            err_s = f"± {err:.4g}" if err is not None else ("(n/a)" if k in self.free else "(fixed)")
-            lines.append(f"  {k:22s} {val:18.11g} {err_s:14s} {self.units.get(k, '')}")
+            status = "" if err is not None else ("(n/a)" if k in self.free else "(fixed)")
+            # values without uncertainty (a fixed ephemeris) keep the digits they were given with
+            text = format_value(val, err, digits=_FIXED_DIGITS)
+            lines.append(f"  {k:<22s} {text:>28s} {self.units.get(k, ''):<7s} {status}".rstrip())
         lines.append(f"  rms primary {self.rms_primary:.3f} km/s"
                      + (f", secondary {self.rms_secondary:.3f} km/s" if self.double_lined else ""))
         if not self.jitter and (self.error_scale_primary > 1 or self.error_scale_secondary > 1):
