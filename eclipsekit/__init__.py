@@ -2,21 +2,37 @@
 
 Find the period, fit both eclipses with two limb-darkened spherical stars on a
 Keplerian orbit, and combine with radial velocities into absolute masses and radii.
+
+The public names below are loaded on first use (PEP 562), so ``import eclipsekit`` and
+the command line's ``--help`` stay quick: scipy.optimize, lmfit, astropy tables and
+matplotlib are imported only by the modules that need them.
 """
 
-from .errors import EclipsekitError, EclipsekitWarning, FitError, GeometryError, InputError, NoEclipseFound
-from .data import LightCurve, VelocityCurve, magnitudes_to_flux, read_light_curve, read_velocities, sample_paths
-from .orbit import (conjunction_times, radial_velocities, secondary_phase, sky_separation, solve_kepler,
-                    true_anomaly)
-from .eclipse import eclipse_properties, light_ratio, model_flux, occulted_fraction
-from .period import PeriodSearch, find_period
-from .fitting import EclipseFit, fit_eclipses
-from .joint import fit_joint
-from .spectroscopy import OrbitFit, fit_velocities
-from .dimensions import AbsoluteDimensions, absolute_dimensions
-from .pipeline import Analysis, analyse
+from __future__ import annotations
 
-__version__ = "0.1.0"
+import importlib
+from typing import Any
+
+from ._version import __version__
+from .errors import EclipsekitError, EclipsekitWarning, FitError, GeometryError, InputError, NoEclipseFound
+
+#: Public name -> submodule that defines it (imported on first access).
+_LAZY = {
+    # reading data
+    "LightCurve": "data", "VelocityCurve": "data", "read_light_curve": "data", "read_velocities": "data",
+    "magnitudes_to_flux": "data", "sample_paths": "data",
+    # the model
+    "model_flux": "eclipse", "occulted_fraction": "eclipse", "light_ratio": "eclipse",
+    "eclipse_properties": "eclipse",
+    "solve_kepler": "orbit", "true_anomaly": "orbit", "sky_separation": "orbit", "conjunction_times": "orbit",
+    "secondary_phase": "orbit", "radial_velocities": "orbit",
+    # the analysis steps
+    "find_period": "period", "PeriodSearch": "period",
+    "fit_eclipses": "fitting", "EclipseFit": "fitting", "fit_joint": "joint",
+    "fit_velocities": "spectroscopy", "OrbitFit": "spectroscopy",
+    "absolute_dimensions": "dimensions", "AbsoluteDimensions": "dimensions",
+    "analyse": "pipeline", "Analysis": "pipeline",
+}
 
 __all__ = [
     # reading data
@@ -31,3 +47,17 @@ __all__ = [
     "EclipsekitError", "InputError", "GeometryError", "NoEclipseFound", "FitError", "EclipsekitWarning",
     "__version__",
 ]
+
+
+def __getattr__(name: str) -> Any:
+    """Import the submodule that defines a public name on first access (PEP 562)."""
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value  # later look-ups skip this function
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

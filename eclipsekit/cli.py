@@ -13,7 +13,7 @@ import sys
 import warnings
 from collections.abc import Sequence
 
-from . import __version__
+from ._version import __version__
 from .errors import EclipsekitError, EclipsekitWarning, InputError
 
 __all__ = ["main"]
@@ -216,7 +216,8 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
 def _cmd_dimensions(args: argparse.Namespace) -> int:
     """Absolute dimensions from a result.json and velocities (or amplitudes)."""
     from .dimensions import absolute_dimensions
-    from .results import dimensions_result, load_result, prepare_output_dir, write_dimension_files
+    from .pipeline import write_dimension_files
+    from .results import dimensions_result, load_result, prepare_output_dir
     from .spectroscopy import fit_velocities
 
     light = load_result(args.result)

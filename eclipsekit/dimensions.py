@@ -16,7 +16,6 @@ Resolution B2: the zero point of the bolometric magnitude scale) taken from
 from __future__ import annotations
 
 import re
-import warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -24,8 +23,10 @@ import astropy.constants as const
 import astropy.units as u
 import numpy as np
 
+from . import _notes
 from ._validate import to_unit
-from .errors import EclipsekitWarning, InputError
+from .errors import InputError
+from .summary import format_value
 
 __all__ = [
     "AbsoluteDimensions",
@@ -356,11 +357,10 @@ class AbsoluteDimensions:
     def summary(self) -> str:
         lines = [f"Absolute dimensions ({self.n_samples} samples; median ± standard deviation)"]
         for k, v in self.values.items():
-            err = self.uncertainties.get(k)
-            err_s = "" if err is None else f" ± {err:.4g}"
             dom = self.budget.get(k, "")
             dom_s = f"   [{dom}]" if dom else ""
-            lines.append(f"  {k:26s} {v:12.5g}{err_s:14s} {self.units.get(k, ''):12s}{dom_s}")
+            text = format_value(v, self.uncertainties.get(k))
+            lines.append(f"  {k:<26s} {text:>24s} {self.units.get(k, ''):<12s}{dom_s}".rstrip())
         for star, chk in self.main_sequence.items():
             lines.append(f"  main-sequence check, {star}: L = {chk['luminosity']:.3g} L_sun vs "
                          f"{chk['ms_luminosity']:.3g} from M = {chk['mass']:.3g} M_sun "
@@ -579,28 +579,54 @@ def absolute_dimensions(
     n_samples = int(n_samples)
     if n_samples < 100:
         raise InputError(f"`n_samples` must be at least 100, got {n_samples}")
-    notes: list[str] = []
-
-    def warn(msg: str) -> None:
-        notes.append(msg)
-        warnings.warn(msg, EclipsekitWarning, stacklevel=3)
-
+    notes = _notes.Notes()
     if orbit is None and getattr(eclipse_fit, "orbit", None) is not None:
         orbit = eclipse_fit.orbit  # a joint light-curve + velocity fit carries its orbit
-    # rows of one joint sample set (see eclipsekit.joint) must stay paired: one group for both fits
-    joint = _same_sample_set(eclipse_fit, orbit)
-    inputs: dict[str, _Input] = {}
-    units = {"period": u.day, "inclination": u.deg, "frac_radius_primary": u.one,
-             "frac_radius_secondary": u.one, "eccentricity": u.one, "k_primary": u.km / u.s,
-             "k_secondary": u.km / u.s, "teff_primary": u.K, "teff_secondary": u.K, "parallax": u.mas}
-    kwargs = {"period": period, "inclination": inclination, "frac_radius_primary": frac_radius_primary,
-              "frac_radius_secondary": frac_radius_secondary, "eccentricity": eccentricity,
-              "k_primary": k_primary, "k_secondary": k_secondary, "teff_primary": teff_primary,
-              "teff_secondary": teff_secondary, "parallax": parallax}
+    given = {"period": period, "inclination": inclination, "frac_radius_primary": frac_radius_primary,
+             "frac_radius_secondary": frac_radius_secondary, "eccentricity": eccentricity,
+             "k_primary": k_primary, "k_secondary": k_secondary, "teff_primary": teff_primary,
+             "teff_secondary": teff_secondary, "parallax": parallax}
+    inputs = _gather_inputs(eclipse_fit, orbit, given, notes)
+    have_radii = _check_inputs(inputs, notes)
+    _check_nominal(inputs, have_radii, notes)
+    for name, inp in inputs.items():
+        if inp.samples is None and (inp.error is None) and inp.source != "assumed":
+            notes.warn(f"`{name}` has no uncertainty; it is treated as exact")
+    if eclipse_fit is not None and not _get(eclipse_fit, "samples"):
+        notes.warn("the light-curve fit has no samples: its parameters are drawn independently "
+                   "(their correlations are ignored)")
 
+    # rows of one joint sample set (see eclipsekit.joint) must stay paired: one group for both fits
+    draws = _draw_inputs(inputs, _same_sample_set(eclipse_fit, orbit), n_samples, rng, notes)
+    out = _derive(draws, have_radii)
+    values = {k: float(np.median(v)) for k, v in out.items()}
+    uncert = {k: float(np.std(v)) for k, v in out.items()}
+    budget, shares = _uncertainty_budget(draws, out, have_radii)
+    ms = _main_sequence_check(values, ms_tolerance, notes)
+
+    samples = dict(out)
+    for k, v in draws.items():
+        samples[f"input_{k}"] = v
+    info = {k: {"value": v.value, "uncertainty": v.error, "unit": _INPUT_UNITS[k], "source": v.source}
+            for k, v in inputs.items()}
+    return AbsoluteDimensions(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
+                              samples=samples, inputs=info, budget=budget, budget_shares=shares,
+                              main_sequence=ms, warnings=notes.messages,
+                              n_samples=int(next(iter(out.values())).size))
+
+
+# --- the steps of absolute_dimensions() ---------------------------------------------------
+_INPUT_QUANTITIES = {"period": u.day, "inclination": u.deg, "frac_radius_primary": u.one,
+                     "frac_radius_secondary": u.one, "eccentricity": u.one, "k_primary": u.km / u.s,
+                     "k_secondary": u.km / u.s, "teff_primary": u.K, "teff_secondary": u.K, "parallax": u.mas}
+
+
+def _gather_inputs(eclipse_fit: Any, orbit: Any, given: dict[str, Any], notes: _notes.Notes) -> dict[str, _Input]:
+    """Each input from the first place that has it: the arguments, the light-curve fit, the orbit."""
+    inputs: dict[str, _Input] = {}
     # 1. explicit arguments win
-    for name, x in kwargs.items():
-        got = _user_input(x, units[name], name)
+    for name, x in given.items():
+        got = _user_input(x, _INPUT_QUANTITIES[name], name)
         if got is not None:
             inputs[name] = _Input(name, got[0], got[1], None, name, "argument")
 
@@ -622,30 +648,36 @@ def absolute_dimensions(
             if val is not None and np.isfinite(val):
                 inputs[name] = _Input(name, val, err, s, "orbit", "orbit")
 
-    # eccentricity: measured in the light curve > measured in the orbit > any value > 0
     if "eccentricity" not in inputs:
-        cands = []
-        for fit, group, src in ((eclipse_fit, "light curve", "eclipse_fit"), (orbit, "orbit", "orbit")):
-            if fit is not None:
-                val, err, s = _from_fit(fit, "eccentricity")
-                if val is not None:
-                    cands.append(_Input("eccentricity", val, err, s, group, src))
-        measured = sorted((c for c in cands if c.error), key=lambda c: c.error)
-        if len(measured) == 2:
-            a_, b_ = measured
-            if abs(a_.value - b_.value) > 3 * np.hypot(a_.error, b_.error):
-                warn(f"eccentricity differs between the light curve and the orbit ({a_.value:.4f} ± "
-                     f"{a_.error:.4f} from the {a_.group}, {b_.value:.4f} ± {b_.error:.4f} from the {b_.group}); "
-                     f"the more precise one is used")
-        if measured:
-            inputs["eccentricity"] = measured[0]
-        elif cands:
-            inputs["eccentricity"] = cands[0]
-        else:
-            inputs["eccentricity"] = _Input("eccentricity", 0.0, 0.0, None, "eccentricity", "assumed")
-            warn("no eccentricity given; a circular orbit (e = 0) is assumed")
+        inputs["eccentricity"] = _eccentricity_input(eclipse_fit, orbit, notes)
+    return inputs
 
-    # --- required inputs and physical checks -------------------------------------------
+
+def _eccentricity_input(eclipse_fit: Any, orbit: Any, notes: _notes.Notes) -> _Input:
+    """e measured more precisely (light curve or orbit) > any value held by a fit > 0 (assumed)."""
+    cands = []
+    for fit, group, src in ((eclipse_fit, "light curve", "eclipse_fit"), (orbit, "orbit", "orbit")):
+        if fit is not None:
+            val, err, s = _from_fit(fit, "eccentricity")
+            if val is not None:
+                cands.append(_Input("eccentricity", val, err, s, group, src))
+    measured = sorted((c for c in cands if c.error), key=lambda c: c.error)
+    if len(measured) == 2:
+        a_, b_ = measured
+        if abs(a_.value - b_.value) > 3 * np.hypot(a_.error, b_.error):
+            notes.warn(f"eccentricity differs between the light curve and the orbit ({a_.value:.4f} ± "
+                       f"{a_.error:.4f} from the {a_.group}, {b_.value:.4f} ± {b_.error:.4f} from the {b_.group}); "
+                       f"the more precise one is used")
+    if measured:
+        return measured[0]
+    if cands:
+        return cands[0]
+    notes.warn("no eccentricity given; a circular orbit (e = 0) is assumed")
+    return _Input("eccentricity", 0.0, 0.0, None, "eccentricity", "assumed")
+
+
+def _check_inputs(inputs: dict[str, _Input], notes: _notes.Notes) -> bool:
+    """Refuse missing or unphysical inputs; return whether both fractional radii are known."""
     for name, hint in (("k_primary", "give `orbit` or `k_primary=(value, error)` in km/s"),
                        ("k_secondary", "double-lined velocities are needed for masses; give `k_secondary`"),
                        ("period", "give `eclipse_fit`, `orbit` or `period`"),
@@ -654,9 +686,9 @@ def absolute_dimensions(
             raise InputError(f"`{name}` is missing: {hint}")
     have_radii = "frac_radius_primary" in inputs and "frac_radius_secondary" in inputs
     if not have_radii:
-        warn("fractional radii not given: only masses and the semi-major axis are computed")
+        notes.warn("fractional radii not given: only masses and the semi-major axis are computed")
 
-    def val(name):
+    def val(name: str) -> float:
         return inputs[name].value
 
     for name in ("k_primary", "k_secondary"):
@@ -678,39 +710,45 @@ def absolute_dimensions(
             if not val(name) > 0:
                 raise InputError(f"`{name}` must be a positive temperature in K, got {val(name)}")
             if not 1500 <= val(name) <= 100000:
-                warn(f"`{name}` = {val(name):.0f} K is outside 1500-100000 K; check the units (kelvin)")
+                notes.warn(f"`{name}` = {val(name):.0f} K is outside 1500-100000 K; check the units (kelvin)")
     if "parallax" in inputs and not val("parallax") > 0:
         raise InputError(f"`parallax` must be positive (mas) to give a distance, got {val('parallax')}")
+    return have_radii
 
-    nominal = _derive({k: np.array([v.value]) for k, v in inputs.items()}, have_radii)
+
+def _check_nominal(inputs: dict[str, _Input], have_radii: bool, notes: _notes.Notes) -> None:
+    """Checks of the result at the nominal inputs: absurd masses, q > 1, no eclipse, not detached."""
+    values = {k: v.value for k, v in inputs.items()}
+    nominal = _derive({k: np.array([v]) for k, v in values.items()}, have_radii)
     for star in ("primary", "secondary"):
         m = float(nominal[f"mass_{star}"][0])
         if m > _M_SUN_MAX:
-            raise InputError(f"K1 = {val('k_primary')}, K2 = {val('k_secondary')} km/s give "
+            raise InputError(f"K1 = {values['k_primary']}, K2 = {values['k_secondary']} km/s give "
                              f"M_{star} = {m:.3g} M_sun (> {_M_SUN_MAX:g}); check that K is in km/s "
                              f"and the period in days")
     if nominal["mass_ratio"][0] > 1:
-        warn(f"mass ratio M2/M1 = {nominal['mass_ratio'][0]:.3f} > 1: the secondary is the more massive "
-             f"star; check that rv1 belongs to the star eclipsed at primary eclipse")
+        notes.warn(f"mass ratio M2/M1 = {nominal['mass_ratio'][0]:.3f} > 1: the secondary is the more massive "
+                   f"star; check that rv1 belongs to the star eclipsed at primary eclipse")
     if have_radii:
-        rsum = val("frac_radius_primary") + val("frac_radius_secondary")
+        inc = values["inclination"]
+        rsum = values["frac_radius_primary"] + values["frac_radius_secondary"]
         if abs(np.cos(np.radians(inc))) > rsum:
-            warn(f"at i = {inc:.2f} deg the stars (r1 + r2 = {rsum:.3f}) would not eclipse; check the inputs")
+            notes.warn(f"at i = {inc:.2f} deg the stars (r1 + r2 = {rsum:.3f}) would not eclipse; check the inputs")
         if rsum > 0.6:
-            warn(f"r1 + r2 = {rsum:.3f}: the stars are probably not detached, spherical stars")
-    if "parallax" in inputs and inputs["parallax"].error and inputs["parallax"].error > 0.1 * val("parallax"):
-        warn("parallax error exceeds 10% of the parallax: d = 1/p is biased")
+            notes.warn(f"r1 + r2 = {rsum:.3f}: the stars are probably not detached, spherical stars")
+    parallax = inputs.get("parallax")
+    if parallax is not None and parallax.error and parallax.error > 0.1 * parallax.value:
+        notes.warn("parallax error exceeds 10% of the parallax: d = 1/p is biased")
 
-    for name, inp in inputs.items():
-        if inp.samples is None and (inp.error is None) and inp.source != "assumed":
-            warn(f"`{name}` has no uncertainty; it is treated as exact")
-    if eclipse_fit is not None and not _get(eclipse_fit, "samples"):
-        warn("the light-curve fit has no samples: its parameters are drawn independently "
-             "(their correlations are ignored)")
 
-    # --- draw samples ------------------------------------------------------------------
-    # whole rows of each fit's samples are drawn together (keyed by group and length, in
-    # case a fit has sample arrays of different lengths), so each fit keeps its correlations
+def _draw_inputs(inputs: dict[str, _Input], joint: bool, n_samples: int, rng: np.random.Generator,
+                 notes: _notes.Notes) -> dict[str, np.ndarray]:
+    """Samples of every input; unphysical draws (K <= 0, e >= 1, ...) dropped.
+
+    Whole rows of each fit's samples are drawn together (keyed by group and length, in
+    case a fit has sample arrays of different lengths), so each fit keeps its correlations;
+    a ``joint`` fit's light-curve and orbit samples are one group.
+    """
     group_index: dict[tuple[str, int], np.ndarray] = {}
     draws: dict[str, np.ndarray] = {}
     for name, inp in inputs.items():
@@ -734,15 +772,15 @@ def absolute_dimensions(
     if not ok.all():
         frac = 1 - ok.mean()
         if frac > 0.01:
-            warn(f"{100 * frac:.1f}% of the samples were unphysical (K <= 0, e >= 1, ...) and were "
-                 f"dropped; the uncertainties are large compared with the values")
+            notes.warn(f"{100 * frac:.1f}% of the samples were unphysical (K <= 0, e >= 1, ...) and were "
+                       f"dropped; the uncertainties are large compared with the values")
         draws = {k: v[ok] for k, v in draws.items()}
+    return draws
 
-    out = _derive(draws, have_radii)
-    values = {k: float(np.median(v)) for k, v in out.items()}
-    uncert = {k: float(np.std(v)) for k, v in out.items()}
 
-    # --- uncertainty budget: each input alone ------------------------------------------------
+def _uncertainty_budget(draws: dict[str, np.ndarray], out: dict[str, np.ndarray], have_radii: bool
+                        ) -> tuple[dict[str, str], dict[str, dict[str, float]]]:
+    """Each input's share of each output's variance, propagating that input alone (the others at their medians)."""
     medians = {k: np.full(1, float(np.median(v))) for k, v in draws.items()}
     varying = [k for k, v in draws.items() if np.ptp(v) > 0]
     partial: dict[str, dict[str, float]] = {k: {} for k in out}
@@ -760,8 +798,12 @@ def absolute_dimensions(
         sh = {k: v / tot for k, v in sorted(parts.items(), key=lambda kv: -kv[1]) if v / tot >= 0.005}
         shares[q] = sh
         budget[q] = ", ".join(f"{100 * v:.0f}% from {k}" for k, v in sh.items() if v >= 0.01)
+    return budget, shares
 
-    # --- main-sequence sanity check ----------------------------------------------------------
+
+def _main_sequence_check(values: dict[str, float], ms_tolerance: float, notes: _notes.Notes
+                         ) -> dict[str, dict[str, Any]]:
+    """Each star's luminosity against the main-sequence relation at its mass (with temperatures only)."""
     ms: dict[str, dict[str, Any]] = {}
     for star in ("primary", "secondary"):
         if f"luminosity_{star}" not in values:
@@ -775,18 +817,10 @@ def absolute_dimensions(
                     "flag": flag, "in_range": in_range}
         if flag:
             where = "above" if off > 0 else "below"
-            warn(f"the {star} (M = {m:.3g} M_sun, L = {lum:.3g} L_sun) lies {abs(off):.2f} dex {where} the "
-                 f"main-sequence mass-luminosity relation (L = {l_ms:.3g} L_sun); "
-                 f"{'an evolved star, or ' if off > 0 else ''}check the temperatures and the K's")
+            notes.warn(f"the {star} (M = {m:.3g} M_sun, L = {lum:.3g} L_sun) lies {abs(off):.2f} dex {where} the "
+                       f"main-sequence mass-luminosity relation (L = {l_ms:.3g} L_sun); "
+                       f"{'an evolved star, or ' if off > 0 else ''}check the temperatures and the K's")
         elif not in_range:
-            notes.append(f"the {star}'s mass {m:.3g} M_sun is outside the range of the "
-                         f"mass-luminosity check ({_ML_RANGE[0]}-{_ML_RANGE[1]} M_sun)")
-
-    samples = dict(out)
-    for k, v in draws.items():
-        samples[f"input_{k}"] = v
-    info = {k: {"value": v.value, "uncertainty": v.error, "unit": _INPUT_UNITS[k], "source": v.source}
-            for k, v in inputs.items()}
-    return AbsoluteDimensions(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
-                              samples=samples, inputs=info, budget=budget, budget_shares=shares,
-                              main_sequence=ms, warnings=notes, n_samples=int(next(iter(out.values())).size))
+            notes.note(f"the {star}'s mass {m:.3g} M_sun is outside the range of the "
+                       f"mass-luminosity check ({_ML_RANGE[0]}-{_ML_RANGE[1]} M_sun)")
+    return ms

@@ -18,12 +18,14 @@ import astropy.units as u
 import numpy as np
 from astropy.table import Table
 
+from . import _notes, results
 from ._validate import as_float
 from .data import LightCurve, VelocityCurve, read_light_curve, read_velocities
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
 from .orbit import orbital_phase
+from .summary import format_summary
 
-__all__ = ["Analysis", "analyse", "LONG_CADENCE"]
+__all__ = ["Analysis", "analyse", "write_dimension_files", "LONG_CADENCE"]
 
 #: Cadence (days) above which unsmeared eclipse models are biased; 10 minutes.
 LONG_CADENCE = 10.0 / 1440.0
@@ -70,14 +72,10 @@ class Analysis:
     # -- reporting -------------------------------------------------------------------
     def to_dict(self) -> dict[str, Any]:
         """The ``result.json`` content (see ``DESIGN.md``)."""
-        from .results import result_dict
-
-        return result_dict(self)
+        return results.result_dict(self)
 
     def summary(self) -> str:
         """A concise table of the results, as printed at the end of ``eclipsekit run``."""
-        from .summary import format_summary
-
         return format_summary(self.to_dict())
 
     def __repr__(self) -> str:
@@ -103,8 +101,6 @@ class Analysis:
         dict of str -> Path
             The files written, by role.
         """
-        from . import results
-
         folder = results.prepare_output_dir(out, overwrite=overwrite)
         content = self.to_dict()
         written: dict[str, Path] = {}
@@ -276,73 +272,141 @@ def analyse(
         ``status`` is ``"no_eclipse_found"`` when the period search finds nothing
         significant; the later steps are then skipped.
     """
-    from .dimensions import absolute_dimensions
-    from .fitting import fit_eclipses
-    from .period import find_period
-    from .spectroscopy import fit_velocities
-
     timings: dict[str, float] = {}
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", EclipsekitWarning)
         with _Timer(timings, "read"):
-            if not isinstance(lc, LightCurve):
-                lc = read_light_curve(lc)
-            if velocities is not None and not isinstance(velocities, VelocityCurve):
-                velocities = read_velocities(velocities)
-        analysis = Analysis(lc=lc, rv=velocities, timings=timings, command=command)
-        analysis.user_inputs = {k: _record(v) for k, v in {
-            "k_primary": k_primary, "k_secondary": k_secondary, "teff_primary": teff_primary,
-            "teff_secondary": teff_secondary, "parallax": parallax}.items() if v is not None}
-        if velocities is not None and (k_primary is not None or k_secondary is not None):
-            raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
-        if joint and velocities is None:
-            raise InputError("a joint fit needs velocities: give --rv (or drop --joint)")
-
-        exposure = _exposure_days(exposure_time, lc)
-        if exposure is None and lc.cadence > LONG_CADENCE:
-            warnings.warn(
-                f"median cadence is {lc.cadence * 1440:.1f} min and no exposure time is known: eclipses are "
-                "smeared and the fitted radii and inclination will be biased; give --exposure-time",
-                EclipsekitWarning, stacklevel=2)
-
-        if period is None:
-            with _Timer(timings, "period search"):
-                try:
-                    analysis.search = find_period(lc, min_period=min_period, max_period=max_period,
-                                                  progress=progress)
-                except NoEclipseFound as exc:
-                    analysis.search = exc.search
-                    analysis.status = "no_eclipse_found"
-                    analysis.message = str(exc)
-            start: Any = analysis.search
-        else:
-            start = {"period": float(period), **({"t0": float(t0)} if t0 is not None else {})}
-
+            lc, velocities = _read_inputs(lc, velocities)
+        measured = {"k_primary": k_primary, "k_secondary": k_secondary, "teff_primary": teff_primary,
+                    "teff_secondary": teff_secondary, "parallax": parallax}
+        analysis = Analysis(lc=lc, rv=velocities, timings=timings, command=command,
+                            user_inputs={k: _record(v) for k, v in measured.items() if v is not None})
+        options = _RunOptions.check(
+            lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
+            exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free), progress=progress,
+            seed=seed, joint=joint, fit_options=dict(fit_options or {}))
+        start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
-            with _Timer(timings, "joint fit" if joint else "eclipse fit"):
-                analysis.eclipse_fit = fit_eclipses(
-                    lc, start, errors=errors, fix=tuple(fix), free=tuple(free), exposure_time=exposure or 0.0,
-                    progress=progress, seed=seed, velocities=velocities if joint else None,
-                    **(fit_options or {}))
-            if joint:
-                analysis.orbit = analysis.eclipse_fit.orbit
-            elif velocities is not None:
-                with _Timer(timings, "velocity fit"):
-                    analysis.orbit = fit_velocities(velocities, analysis.eclipse_fit, seed=seed)
-            if analysis.orbit is not None or k_primary is not None:
-                with _Timer(timings, "absolute dimensions"):
-                    analysis.dimensions = absolute_dimensions(
-                        analysis.eclipse_fit, analysis.orbit, k_primary=k_primary, k_secondary=k_secondary,
-                        teff_primary=teff_primary, teff_secondary=teff_secondary, parallax=parallax, seed=seed)
-            else:
-                analysis.message = ("no velocities given: stopped after the eclipse fit "
-                                    "(give --rv or --k1/--k2 for masses and radii)")
+            _fit_light_curve(analysis, start, options)
+            _fit_orbit_and_dimensions(analysis, options)
     analysis.warnings = _unique(
         [str(w.message) for w in caught if issubclass(w.category, EclipsekitWarning)]
         + list(getattr(analysis.eclipse_fit, "warnings", []) or [])
         + list(getattr(analysis.orbit, "warnings", []) or [])
         + list(getattr(analysis.dimensions, "warnings", []) or []))
     return analysis
+
+
+# -- the steps of analyse() ---------------------------------------------------------------
+@dataclass(frozen=True)
+class _RunOptions:
+    """The options of one :func:`analyse` call, checked against each other and the data."""
+
+    measured: dict[str, Any]          # absolute_dimensions() inputs given by hand (None when not given)
+    min_period: float | None
+    max_period: float | None
+    exposure: float | None            # days; None when unknown
+    errors: str
+    fix: tuple[str, ...]
+    free: tuple[str, ...]
+    progress: bool
+    seed: int | None
+    joint: bool
+    fit_options: dict[str, Any]
+
+    @classmethod
+    def check(cls, lc: LightCurve, velocities: VelocityCurve | None, *, exposure_time: Any,
+              **options: Any) -> _RunOptions:
+        """Refuse conflicting options; find the exposure time and warn when long exposures go unmodelled."""
+        measured = options["measured"]
+        if velocities is not None and (measured["k_primary"] is not None or measured["k_secondary"] is not None):
+            raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
+        if options["joint"] and velocities is None:
+            raise InputError("a joint fit needs velocities: give --rv (or drop --joint)")
+        exposure = _exposure_days(exposure_time, lc)
+        if exposure is None and lc.cadence > LONG_CADENCE:
+            _notes.warn(f"median cadence is {lc.cadence * 1440:.1f} min and no exposure time is known: eclipses "
+                        "are smeared and the fitted radii and inclination will be biased; give --exposure-time")
+        return cls(exposure=exposure, **options)
+
+
+def _read_inputs(lc: LightCurve | str | os.PathLike, velocities: VelocityCurve | str | os.PathLike | None
+                 ) -> tuple[LightCurve, VelocityCurve | None]:
+    """Read the files given by name; data objects pass through."""
+    if not isinstance(lc, LightCurve):
+        lc = read_light_curve(lc)
+    if velocities is not None and not isinstance(velocities, VelocityCurve):
+        velocities = read_velocities(velocities)
+    return lc, velocities
+
+
+def _search_period(analysis: Analysis, options: _RunOptions, period: float | None, t0: float | None) -> Any:
+    """The start of the eclipse fit: the period search, or the ephemeris given.
+
+    When the search finds no eclipse, ``analysis`` records it (status and message).
+    """
+    if period is not None:
+        return {"period": float(period), **({"t0": float(t0)} if t0 is not None else {})}
+    from .period import find_period
+
+    with _Timer(analysis.timings, "period search"):
+        try:
+            analysis.search = find_period(analysis.lc, min_period=options.min_period,
+                                          max_period=options.max_period, progress=options.progress)
+        except NoEclipseFound as exc:
+            analysis.search = exc.search
+            analysis.status = "no_eclipse_found"
+            analysis.message = str(exc)
+    return analysis.search
+
+
+def _fit_light_curve(analysis: Analysis, start: Any, options: _RunOptions) -> None:
+    """The eclipse fit (joint with the velocities when asked)."""
+    from .fitting import fit_eclipses
+
+    with _Timer(analysis.timings, "joint fit" if options.joint else "eclipse fit"):
+        analysis.eclipse_fit = fit_eclipses(
+            analysis.lc, start, errors=options.errors, fix=options.fix, free=options.free,
+            exposure_time=options.exposure or 0.0, progress=options.progress, seed=options.seed,
+            velocities=analysis.rv if options.joint else None, **options.fit_options)
+
+
+def _fit_orbit_and_dimensions(analysis: Analysis, options: _RunOptions) -> None:
+    """The velocity fit (unless the joint fit made the orbit), then masses and radii when possible."""
+    from .dimensions import absolute_dimensions
+    from .spectroscopy import fit_velocities
+
+    if options.joint:
+        analysis.orbit = analysis.eclipse_fit.orbit
+    elif analysis.rv is not None:
+        with _Timer(analysis.timings, "velocity fit"):
+            analysis.orbit = fit_velocities(analysis.rv, analysis.eclipse_fit, seed=options.seed)
+    if analysis.orbit is None and options.measured["k_primary"] is None:
+        analysis.message = ("no velocities given: stopped after the eclipse fit "
+                            "(give --rv or --k1/--k2 for masses and radii)")
+        return
+    with _Timer(analysis.timings, "absolute dimensions"):
+        analysis.dimensions = absolute_dimensions(analysis.eclipse_fit, analysis.orbit, **options.measured,
+                                                  seed=options.seed)
+
+
+def write_dimension_files(out: str | os.PathLike, content: dict[str, Any], text: str, *, orbit: Any = None,
+                          dimensions: Any = None) -> list[Path]:
+    """Write ``result.json``, ``parameters.ecsv``, ``summary.txt``, velocities and figures for ``dimensions``.
+
+    The files of ``eclipsekit dimensions``: ``content`` is the read-back result with the
+    spectroscopic and absolute sections added (:func:`~eclipsekit.results.dimensions_result`)
+    and ``text`` its summary.
+    """
+    folder = Path(out)
+    analysis = Analysis(lc=None, rv=getattr(orbit, "rv", None), orbit=orbit, dimensions=dimensions)
+    written = [results.write_table(folder / "parameters.ecsv", results.parameters_table(content))]
+    if analysis.rv is not None:
+        written.append(results.write_table(folder / "velocities.ecsv", analysis.velocities_table()))
+    written.extend(analysis.plot(folder).values())
+    written.append(results.write_text(folder / "summary.txt", text))
+    written.append(results.write_json(folder / "result.json", content))
+    return written
 
 
 def _exposure_days(exposure_time: Any, lc: LightCurve) -> float | None:

@@ -18,6 +18,7 @@ import numpy as np
 from astropy.table import Table
 
 from ._validate import finite_or_none
+from ._version import __version__
 from .errors import InputError
 
 __all__ = [
@@ -30,7 +31,6 @@ __all__ = [
     "load_result",
     "ResultSummary",
     "dimensions_result",
-    "write_dimension_files",
 ]
 
 #: Which quantity goes in which section of ``result.json``, with its default unit
@@ -99,8 +99,6 @@ def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]
 
 def result_dict(analysis: Any) -> dict[str, Any]:
     """Build the ``result.json`` content of an :class:`~eclipsekit.pipeline.Analysis`."""
-    from . import __version__
-
     lc = analysis.lc
     fit = analysis.eclipse_fit
     search = analysis.search
@@ -333,8 +331,6 @@ def load_result(path: str | os.PathLike, n_samples: int = 20000) -> ResultSummar
 def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: Iterable[str],
                       command: str | None = None) -> dict[str, Any]:
     """A read-back ``result.json`` with the spectroscopic and absolute sections added."""
-    from . import __version__
-
     content = dict(light.content)
     content["eclipsekit_version"] = __version__
     content["command"] = command
@@ -350,19 +346,3 @@ def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: 
     fit["warnings"] = warnings_
     content["fit"] = fit
     return content
-
-
-def write_dimension_files(out: str | os.PathLike, content: Mapping[str, Any], text: str, *, orbit: Any = None,
-                          dimensions: Any = None) -> list[Path]:
-    """Write ``result.json``, ``parameters.ecsv``, ``summary.txt``, velocities and figures for ``dimensions``."""
-    from .pipeline import Analysis
-
-    folder = Path(out)
-    analysis = Analysis(lc=None, rv=getattr(orbit, "rv", None), orbit=orbit, dimensions=dimensions)
-    written = [write_table(folder / "parameters.ecsv", parameters_table(content))]
-    if analysis.rv is not None:
-        written.append(write_table(folder / "velocities.ecsv", analysis.velocities_table()))
-    written.extend(analysis.plot(folder).values())
-    written.append(write_text(folder / "summary.txt", text))
-    written.append(write_json(folder / "result.json", content))
-    return written

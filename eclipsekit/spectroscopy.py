@@ -17,7 +17,6 @@ positive velocity is receding::
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -25,16 +24,19 @@ import astropy.units as u
 import lmfit
 import numpy as np
 
+from . import _notes
 from . import orbit as _orbit
 from ._validate import as_float
 from .data import VelocityCurve
 from .dimensions import mass_function as _mass_function
 from .dimensions import minimum_masses as _minimum_masses
 from .dimensions import projected_semi_major_axis as _asini
-from .errors import EclipsekitWarning, FitError, InputError
+from .errors import FitError, InputError
+from .summary import format_value
 
 __all__ = ["OrbitFit", "fit_velocities"]
 
+_FIXED_DIGITS = 11     # significant figures of a value shown without uncertainty (e.g. a fixed period)
 _E_MAX = 0.95          # e cos w, e sin w are boxed to +-0.95 and e is capped there in the model
 _UNITS = {"k_primary": "km / s", "k_secondary": "km / s", "gamma": "km / s", "gamma_offset": "km / s",
           "ecosw": "", "esinw": "", "eccentricity": "", "omega": "deg", "mass_ratio": "",
@@ -125,8 +127,10 @@ class OrbitFit:
             if not np.isfinite(val):
                 continue
             err = self.uncertainties.get(k)
-            err_s = f"± {err:.4g}" if err is not None else ("(n/a)" if k in self.free else "(fixed)")
-            lines.append(f"  {k:22s} {val:18.11g} {err_s:14s} {self.units.get(k, '')}")
+            status = "" if err is not None else ("(n/a)" if k in self.free else "(fixed)")
+            # values without uncertainty (a fixed ephemeris) keep the digits they were given with
+            text = format_value(val, err, digits=_FIXED_DIGITS)
+            lines.append(f"  {k:<22s} {text:>28s} {self.units.get(k, ''):<7s} {status}".rstrip())
         lines.append(f"  rms primary {self.rms_primary:.3f} km/s"
                      + (f", secondary {self.rms_secondary:.3f} km/s" if self.double_lined else ""))
         if not self.jitter and (self.error_scale_primary > 1 or self.error_scale_secondary > 1):
@@ -319,41 +323,156 @@ def fit_velocities(
     .. [1] Hilditch, R. W. 2001, An Introduction to Close Binary Stars (CUP), ch. 2.
     .. [2] Lucy, L. B. & Sweeney, M. A. 1971, AJ 76, 544 (small eccentricities are biased).
     """
-    if not all(hasattr(rv, a) for a in ("time", "rv1", "rv1_err", "rv2", "rv2_err")):
-        raise InputError("`rv` must be a VelocityCurve (see eclipsekit.read_velocities)")
+    data = _Velocities.from_curve(rv)
     rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
-    notes: list[str] = []
+    n_samples = int(n_samples)
+    notes = _notes.Notes()
+    setup = _OrbitSetup.check(data, ephemeris, period=period, t0=t0, fit_ephemeris=fit_ephemeris, ecosw=ecosw,
+                              esinw=esinw, fit_eccentricity=fit_eccentricity, jitter=jitter,
+                              separate_gamma=separate_gamma, notes=notes)
+    problem = _VelocityProblem(data, setup, _priors(setup, notes))
+    params = _parameters(data, setup, *_start_values(data, setup))
+    result, jitter_result = problem.fit(params)
+    pv = result.params.valuesdict()
+    if not result.success:
+        notes.warn(f"the velocity fit did not converge: {result.message}")
 
-    def warn(msg: str) -> None:
-        notes.append(msg)
-        warnings.warn(msg, EclipsekitWarning, stacklevel=3)
+    stderr, samp = _covariance_samples(result, n_samples, rng, notes)
+    jit_val, jit_err = _jitter_estimates(jitter_result, data, notes)
+    for star in ("primary", "secondary"):
+        sd = jit_err[star] or 0.0
+        samp[f"jitter_{star}"] = np.abs(jit_val[star] + sd * rng.standard_normal(n_samples))
+    _add_derived_samples(samp, pv, problem.t_ref, data.double)
+    values = _best_values(pv, problem.t_ref, jit_val, data.double)
+    uncert = _uncertainties(values, list(result.var_names), stderr, samp, jit_err)
+    if uncert.get("omega") is not None and values["eccentricity"] < (uncert.get("eccentricity") or 0):
+        notes.warn("e is smaller than its uncertainty: omega is undefined")
+    samples = {k: np.asarray(samp[k], float) for k in values if k in samp}
+    samples["t0"] = samp["t0"]
 
-    time = np.asarray(rv.time, float)
-    rv1, e1 = np.asarray(rv.rv1, float), np.asarray(rv.rv1_err, float)
-    rv2, e2 = np.asarray(rv.rv2, float), np.asarray(rv.rv2_err, float)
-    m1, m2 = np.isfinite(rv1), np.isfinite(rv2)
-    n1, n2 = int(m1.sum()), int(m2.sum())
-    double = n2 > 0
-    if n1 == 0:
-        raise InputError("`rv` has no primary velocities (rv1)")
-    if separate_gamma and not double:
-        warn("`separate_gamma` ignored: single-lined velocities")
-        separate_gamma = False
+    statistics = problem.statistics(pv, jit_val)
+    _quality_notes(problem, pv, notes)
+    free = [("t0" if n == "t0_offset" else n) for n in result.var_names]
+    if setup.jitter:
+        free += [n for n in ("jitter_primary", "jitter_secondary") if n in params]
+    return OrbitFit(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
+                    samples=samples, free=free, rv=rv, **statistics, error_scale_primary=problem.scale["primary"],
+                    error_scale_secondary=problem.scale["secondary"], n_free=setup.n_free,
+                    n_data=data.n1 + data.n2, double_lined=data.double, jitter=setup.jitter,
+                    separate_gamma=setup.separate_gamma, success=bool(result.success), message=str(result.message),
+                    warnings=notes.messages, lmfit_result=result, inclination=setup.inclination)
 
-    # --- ephemeris and eccentricity -------------------------------------------------------
-    eph = _ephemeris_info(ephemeris)
-    if ephemeris is not None and "period" not in eph:
-        raise InputError("`ephemeris` has no period (expected .values['period'] or .period)")
-    p_val, p_err = eph.get("period", (None, None))
-    t_val, t_err = eph.get("t0", (None, None))
-    if period is not None:
-        p_val, p_err = as_float(period, "period", u.day), None
-    if t0 is not None:
-        t_val, t_err = as_float(t0, "t0", u.day), None
-    if p_val is None:
-        raise InputError("`period` is needed: pass an ephemeris (light-curve fit or period search) or period=")
-    if not p_val > 0:
-        raise InputError(f"`period` must be positive, got {p_val}")
+
+# --- the steps of fit_velocities() -------------------------------------------------------
+@dataclass(frozen=True)
+class _Velocities:
+    """The velocities of one fit as float arrays; ``m1``, ``m2`` mark the epochs where each star was measured."""
+
+    time: np.ndarray
+    rv1: np.ndarray
+    e1: np.ndarray
+    rv2: np.ndarray
+    e2: np.ndarray
+    m1: np.ndarray
+    m2: np.ndarray
+    n1: int
+    n2: int
+    double: bool
+
+    @classmethod
+    def from_curve(cls, rv: Any) -> _Velocities:
+        if not all(hasattr(rv, a) for a in ("time", "rv1", "rv1_err", "rv2", "rv2_err")):
+            raise InputError("`rv` must be a VelocityCurve (see eclipsekit.read_velocities)")
+        rv1, rv2 = np.asarray(rv.rv1, float), np.asarray(rv.rv2, float)
+        m1, m2 = np.isfinite(rv1), np.isfinite(rv2)
+        n1, n2 = int(m1.sum()), int(m2.sum())
+        if n1 == 0:
+            raise InputError("`rv` has no primary velocities (rv1)")
+        return cls(time=np.asarray(rv.time, float), rv1=rv1, e1=np.asarray(rv.rv1_err, float), rv2=rv2,
+                   e2=np.asarray(rv.rv2_err, float), m1=m1, m2=m2, n1=n1, n2=n2, double=n2 > 0)
+
+
+@dataclass(frozen=True)
+class _OrbitSetup:
+    """What is fitted and from where it starts: the checked options of :func:`fit_velocities`.
+
+    ``period``, ``t0``, ``ecosw``, ``esinw`` are the fixed or start values, each with the
+    uncertainty (or None) that makes it a Gaussian prior when the parameter is fitted.
+    """
+
+    period: float
+    period_err: float | None
+    t0: float
+    t0_err: float | None
+    ecosw: float
+    ecosw_err: float | None
+    esinw: float
+    esinw_err: float | None
+    known_e: bool                # e cos w or e sin w came from the ephemeris or the arguments
+    fit_eccentricity: bool
+    fit_ephemeris: bool
+    fit_t0: bool
+    jitter: bool
+    separate_gamma: bool
+    inclination: float | None
+    n_free: int
+    n_prior: int
+
+    @property
+    def model_kw(self) -> dict[str, float]:
+        return _incl_kw(self.inclination)
+
+    @classmethod
+    def check(cls, data: _Velocities, ephemeris: Any, *, period: Any, t0: Any, fit_ephemeris: bool, ecosw: Any,
+              esinw: Any, fit_eccentricity: bool | None, jitter: bool, separate_gamma: bool,
+              notes: _notes.Notes) -> _OrbitSetup:
+        if separate_gamma and not data.double:
+            notes.warn("`separate_gamma` ignored: single-lined velocities")
+            separate_gamma = False
+        eph = _ephemeris_info(ephemeris)
+        if ephemeris is not None and "period" not in eph:
+            raise InputError("`ephemeris` has no period (expected .values['period'] or .period)")
+        p_val, p_err = eph.get("period", (None, None))
+        t_val, t_err = eph.get("t0", (None, None))
+        if period is not None:
+            p_val, p_err = as_float(period, "period", u.day), None
+        if t0 is not None:
+            t_val, t_err = as_float(t0, "t0", u.day), None
+        if p_val is None:
+            raise InputError("`period` is needed: pass an ephemeris (light-curve fit or period search) or period=")
+        if not p_val > 0:
+            raise InputError(f"`period` must be positive, got {p_val}")
+        (ec_val, ec_err), (es_val, es_err), known_e = _eccentricity_start(eph, ecosw, esinw)
+        if fit_eccentricity is None:
+            # fixed where the light curve fixed it; fitted (with its priors) where it measured it
+            measured_e = ec_err is not None or es_err is not None
+            fit_eccentricity = (not known_e or measured_e) and data.n1 >= 8
+            if not known_e and data.n1 < 8:
+                notes.warn(f"only {data.n1} primary velocities: the orbit is assumed circular (pass "
+                           f"fit_eccentricity=True to fit e)")
+        fit_eccentricity, fit_ephemeris, jitter = bool(fit_eccentricity), bool(fit_ephemeris), bool(jitter)
+        fit_t0 = fit_ephemeris or t_val is None
+        if t_val is None:
+            t_val = _circular_t0(data.time, data.rv1, 1 / data.e1, p_val)
+            notes.warn("no t0 given: the time of primary eclipse is fitted from the velocities alone")
+
+        n_free = (2 if not data.double else 3) + int(separate_gamma) + 2 * fit_eccentricity \
+            + int(fit_t0) + int(fit_ephemeris) + (1 + int(data.double)) * jitter
+        n_prior = int(fit_ephemeris and p_err is not None) + int(fit_ephemeris and t_err is not None) \
+            + int(fit_eccentricity and ec_err is not None) + int(fit_eccentricity and es_err is not None)
+        n_data = data.n1 + data.n2
+        if n_data + n_prior <= n_free:
+            raise InputError(f"{n_data} velocities cannot constrain {n_free} free parameters; give more epochs "
+                             f"or fix the eccentricity / ephemeris")
+        return cls(period=p_val, period_err=p_err, t0=t_val, t0_err=t_err, ecosw=ec_val, ecosw_err=ec_err,
+                   esinw=es_val, esinw_err=es_err, known_e=known_e, fit_eccentricity=fit_eccentricity,
+                   fit_ephemeris=fit_ephemeris, fit_t0=fit_t0, jitter=jitter, separate_gamma=bool(separate_gamma),
+                   inclination=eph.get("inclination", (None, None))[0], n_free=n_free, n_prior=n_prior)
+
+
+def _eccentricity_start(eph: dict[str, tuple[float | None, float | None]], ecosw: Any, esinw: Any
+                        ) -> tuple[tuple[float, float | None], tuple[float, float | None], bool]:
+    """``(ecosw, error), (esinw, error), known``: the arguments over the ephemeris, 0 when neither gives them."""
     ec_val, ec_err = eph.get("ecosw", (None, None))
     es_val, es_err = eph.get("esinw", (None, None))
     if ecosw is not None:
@@ -365,194 +484,235 @@ def fit_velocities(
     es_val = 0.0 if es_val is None else es_val
     if np.hypot(ec_val, es_val) >= 1:
         raise InputError(f"ecosw = {ec_val}, esinw = {es_val} give e >= 1")
-    if fit_eccentricity is None:
-        # fixed where the light curve fixed it; fitted (with its priors) where it measured it
-        measured_e = ec_err is not None or es_err is not None
-        fit_eccentricity = (not known_e or measured_e) and n1 >= 8
-        if not known_e and n1 < 8:
-            warn(f"only {n1} primary velocities: the orbit is assumed circular (pass fit_eccentricity=True "
-                 f"to fit e)")
-    incl = eph.get("inclination", (None, None))[0]
-    rv_kw = _incl_kw(incl)
-    fit_t0 = fit_ephemeris or t_val is None
-    if t_val is None:
-        t_val = _circular_t0(time, rv1, 1 / e1, p_val)
-        warn("no t0 given: the time of primary eclipse is fitted from the velocities alone")
+    return (ec_val, ec_err), (es_val, es_err), known_e
 
-    n_free = (2 if not double else 3) + int(separate_gamma) + 2 * bool(fit_eccentricity) \
-        + int(fit_t0) + int(fit_ephemeris) + (1 + int(double)) * bool(jitter)
-    n_prior = int(fit_ephemeris and p_err is not None) + int(fit_ephemeris and t_err is not None) \
-        + int(bool(fit_eccentricity) and ec_err is not None) + int(bool(fit_eccentricity) and es_err is not None)
-    n_data = n1 + n2
-    if n_data + n_prior <= n_free:
-        raise InputError(f"{n_data} velocities cannot constrain {n_free} free parameters; give more epochs "
-                         f"or fix the eccentricity / ephemeris")
 
-    # --- start values: linear solution over an (e, omega) grid ---------------------------------
-    w1 = np.where(m1, 1 / np.where(m1, e1, 1.0), 0.0)
-    w2 = np.where(m2, 1 / np.where(m2, e2, 1.0), 0.0)
-    if fit_eccentricity and not known_e:
+def _start_values(data: _Velocities, setup: _OrbitSetup) -> tuple[np.ndarray, float, float]:
+    """Start values: the best linear solution (gamma, K1, K2, gamma_offset) on an (e, omega) grid, with its e, omega.
+
+    Returns the coefficients and the grid point's e cos w, e sin w.
+    """
+    w1 = np.where(data.m1, 1 / np.where(data.m1, data.e1, 1.0), 0.0)
+    w2 = np.where(data.m2, 1 / np.where(data.m2, data.e2, 1.0), 0.0)
+    if setup.fit_eccentricity and not setup.known_e:
         grid = [(0.0, 0.0)] + [(e * np.cos(w), e * np.sin(w)) for e in (0.05, 0.15, 0.3, 0.45, 0.6)
                                for w in np.radians(np.arange(0, 360, 30))]
     else:
-        grid = [(ec_val, es_val)]
+        grid = [(setup.ecosw, setup.esinw)]
+
+    def solve(ec: float, es: float) -> tuple[float, np.ndarray]:
+        return _design_start(data.time, data.rv1, w1, data.rv2, w2, setup.period, setup.t0, ec, es,
+                             setup.separate_gamma, setup.model_kw)
+
     best = None
     for ec, es in grid:
-        chi2, coef = _design_start(time, rv1, w1, rv2, w2, p_val, t_val, ec, es, separate_gamma, rv_kw)
-        if coef[1] > 0 and (not double or coef[2] > 0) and (best is None or chi2 < best[0]):
+        chi2, coef = solve(ec, es)
+        if coef[1] > 0 and (not data.double or coef[2] > 0) and (best is None or chi2 < best[0]):
             best = (chi2, coef, ec, es)
     if best is None:  # every grid point gave a negative K: keep the circular solution's magnitudes
-        chi2, coef = _design_start(time, rv1, w1, rv2, w2, p_val, t_val, ec_val, es_val, separate_gamma, rv_kw)
-        best = (chi2, np.abs(coef), ec_val, es_val)
+        chi2, coef = solve(setup.ecosw, setup.esinw)
+        best = (chi2, np.abs(coef), setup.ecosw, setup.esinw)
     _, coef, ec0, es0 = best
+    return coef, ec0, es0
 
-    t_ref = t_val
+
+def _parameters(data: _Velocities, setup: _OrbitSetup, coef: np.ndarray, ecosw: float, esinw: float
+                ) -> lmfit.Parameters:
+    """The lmfit parameters, with their bounds; t0 is fitted as an offset from the start value."""
+    p_val = setup.period
     params = lmfit.Parameters()
     params.add("k_primary", value=max(coef[1], 1e-3), min=0.0)
-    if double:
+    if data.double:
         params.add("k_secondary", value=max(coef[2], 1e-3), min=0.0)
     params.add("gamma", value=coef[0])
-    if separate_gamma:
+    if setup.separate_gamma:
         params.add("gamma_offset", value=coef[3])
-    params.add("ecosw", value=ec0, min=-_E_MAX, max=_E_MAX, vary=bool(fit_eccentricity))
-    params.add("esinw", value=es0, min=-_E_MAX, max=_E_MAX, vary=bool(fit_eccentricity))
-    params.add("period", value=p_val, min=0.5 * p_val, max=1.5 * p_val, vary=bool(fit_ephemeris))
-    params.add("t0_offset", value=0.0, min=-0.5 * p_val, max=0.5 * p_val, vary=bool(fit_t0))  # t0 - t_ref
-    if jitter:
-        params.add("jitter_primary", value=0.5 * float(np.median(e1[m1])), min=0.0)
-        if double:
-            params.add("jitter_secondary", value=0.5 * float(np.median(e2[m2])), min=0.0)
+    params.add("ecosw", value=ecosw, min=-_E_MAX, max=_E_MAX, vary=setup.fit_eccentricity)
+    params.add("esinw", value=esinw, min=-_E_MAX, max=_E_MAX, vary=setup.fit_eccentricity)
+    params.add("period", value=p_val, min=0.5 * p_val, max=1.5 * p_val, vary=setup.fit_ephemeris)
+    params.add("t0_offset", value=0.0, min=-0.5 * p_val, max=0.5 * p_val, vary=setup.fit_t0)  # t0 - t_ref
+    if setup.jitter:
+        params.add("jitter_primary", value=0.5 * float(np.median(data.e1[data.m1])), min=0.0)
+        if data.double:
+            params.add("jitter_secondary", value=0.5 * float(np.median(data.e2[data.m2])), min=0.0)
+    return params
 
+
+def _priors(setup: _OrbitSetup, notes: _notes.Notes) -> list[tuple[str, float, float]]:
+    """Gaussian priors ``(name, mean, sigma)`` on the fitted ephemeris and eccentricity terms."""
     priors = []
-    if fit_ephemeris:
-        if p_err is not None:
-            priors.append(("period", p_val, p_err))
-        if t_err is not None:
-            priors.append(("t0", t_val, t_err))
-        if p_err is None or t_err is None:
-            warn("`fit_ephemeris`: the ephemeris has no uncertainty for the period or t0; "
-                 "that parameter is fitted without a prior")
-    if fit_eccentricity:
-        if ec_err is not None:
-            priors.append(("ecosw", ec_val, ec_err))
-        if es_err is not None:
-            priors.append(("esinw", es_val, es_err))
+    if setup.fit_ephemeris:
+        if setup.period_err is not None:
+            priors.append(("period", setup.period, setup.period_err))
+        if setup.t0_err is not None:
+            priors.append(("t0", setup.t0, setup.t0_err))
+        if setup.period_err is None or setup.t0_err is None:
+            notes.warn("`fit_ephemeris`: the ephemeris has no uncertainty for the period or t0; "
+                       "that parameter is fitted without a prior")
+    if setup.fit_eccentricity:
+        if setup.ecosw_err is not None:
+            priors.append(("ecosw", setup.ecosw, setup.ecosw_err))
+        if setup.esinw_err is not None:
+            priors.append(("esinw", setup.esinw, setup.esinw_err))
+    return priors
 
-    scale = {"primary": 1.0, "secondary": 1.0}
 
-    def model_at(pv: dict[str, float]) -> tuple[np.ndarray, np.ndarray]:
+class _VelocityProblem:
+    """The model, the weighted residuals (scaled errors, jitter, priors) and the least-squares driver."""
+
+    def __init__(self, data: _Velocities, setup: _OrbitSetup, priors: list[tuple[str, float, float]]):
+        self.data, self.setup, self.priors = data, setup, priors
+        self.t_ref = setup.t0
+        self.scale = {"primary": 1.0, "secondary": 1.0}   # factors on the quoted errors (>= 1)
+
+    def model(self, pv: dict[str, float]) -> tuple[np.ndarray, np.ndarray]:
         ec, es = pv["ecosw"], pv["esinw"]
         e = np.hypot(ec, es)
         if e > _E_MAX:  # keep Kepler's equation well posed at the box corners
             ec, es = ec * _E_MAX / e, es * _E_MAX / e
-        m_1, m_2 = _orbit.radial_velocities(time, period=pv["period"], t0=t_ref + pv["t0_offset"],
+        m_1, m_2 = _orbit.radial_velocities(self.data.time, period=pv["period"], t0=self.t_ref + pv["t0_offset"],
                                             k_primary=pv["k_primary"], k_secondary=pv.get("k_secondary", 0.0),
-                                            gamma=pv["gamma"], ecosw=ec, esinw=es, **rv_kw)
+                                            gamma=pv["gamma"], ecosw=ec, esinw=es, **self.setup.model_kw)
         return np.asarray(m_1, float), np.asarray(m_2, float) + pv.get("gamma_offset", 0.0)
 
-    def residual(p: lmfit.Parameters, augmented: bool = True) -> np.ndarray:
+    def residual(self, p: lmfit.Parameters, augmented: bool = True) -> np.ndarray:
+        d = self.data
         pv = p.valuesdict()
-        mod1, mod2 = model_at(pv)
+        mod1, mod2 = self.model(pv)
         parts = []
         s1 = pv.get("jitter_primary", 0.0)
-        var1 = (e1[m1] * scale["primary"]) ** 2 + s1**2
-        parts.append((rv1[m1] - mod1[m1]) / np.sqrt(var1))
-        if double:
+        var1 = (d.e1[d.m1] * self.scale["primary"]) ** 2 + s1**2
+        parts.append((d.rv1[d.m1] - mod1[d.m1]) / np.sqrt(var1))
+        if d.double:
             s2 = pv.get("jitter_secondary", 0.0)
-            var2 = (e2[m2] * scale["secondary"]) ** 2 + s2**2
-            parts.append((rv2[m2] - mod2[m2]) / np.sqrt(var2))
-        if jitter and augmented:
+            var2 = (d.e2[d.m2] * self.scale["secondary"]) ** 2 + s2**2
+            parts.append((d.rv2[d.m2] - mod2[d.m2]) / np.sqrt(var2))
+        if self.setup.jitter and augmented:
             # sum of squares of these = sum ln(var / sigma^2): the normalisation of the likelihood
-            parts.append(np.sqrt(np.log1p(s1**2 / e1[m1] ** 2)))
-            if double:
-                parts.append(np.sqrt(np.log1p(s2**2 / e2[m2] ** 2)))
-        for name, mu, sig in priors:
-            x = t_ref + pv["t0_offset"] if name == "t0" else pv[name]
+            parts.append(np.sqrt(np.log1p(s1**2 / d.e1[d.m1] ** 2)))
+            if d.double:
+                parts.append(np.sqrt(np.log1p(s2**2 / d.e2[d.m2] ** 2)))
+        for name, mu, sig in self.priors:
+            x = self.t_ref + pv["t0_offset"] if name == "t0" else pv[name]
             parts.append(np.atleast_1d((x - mu) / sig))
         return np.concatenate(parts)
 
-    def run(p: lmfit.Parameters) -> lmfit.minimizer.MinimizerResult:
-        return lmfit.minimize(residual, p, method="least_squares", scale_covar=False, nan_policy="raise")
+    def minimize(self, p: lmfit.Parameters) -> lmfit.minimizer.MinimizerResult:
+        return lmfit.minimize(self.residual, p, method="least_squares", scale_covar=False, nan_policy="raise")
 
-    try:
-        result = run(params)
-        if not jitter:
-            # per-star error scaling (never below 1), then refit
-            pv = result.params.valuesdict()
-            mod1, mod2 = model_at(pv)
-            dof_frac = max(n_data + n_prior - n_free, 1) / (n_data + n_prior)
-            chi1 = np.sum(((rv1[m1] - mod1[m1]) / e1[m1]) ** 2)
-            scale["primary"] = float(np.sqrt(max(1.0, chi1 / (n1 * dof_frac))))
-            if double:
-                chi2_ = np.sum(((rv2[m2] - mod2[m2]) / e2[m2]) ** 2)
-                scale["secondary"] = float(np.sqrt(max(1.0, chi2_ / (n2 * dof_frac))))
-            if scale["primary"] > 1 or scale["secondary"] > 1:
-                result = run(result.params)
-        else:
+    def fit(self, params: lmfit.Parameters) -> tuple[lmfit.minimizer.MinimizerResult, Any]:
+        """The fit whose covariance gives the orbit's uncertainties, and the jitter fit (None without jitter)."""
+        try:
+            result = self.minimize(params)
+            if not self.setup.jitter:
+                self._scale_errors(result.params.valuesdict())
+                if self.scale["primary"] > 1 or self.scale["secondary"] > 1:
+                    result = self.minimize(result.params)
+                return result, None
             # covariance of the orbit at the best-fit jitter (the jitter's own from its Fisher information)
             fixed = result.params.copy()
             for name in ("jitter_primary", "jitter_secondary"):
                 if name in fixed:
                     fixed[name].set(vary=False)
-            jitter_result = result
-            result = run(fixed)
-    except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
-        raise FitError(f"the velocity fit failed: {exc}") from exc
+            return self.minimize(fixed), result
+        except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
+            raise FitError(f"the velocity fit failed: {exc}") from exc
 
-    best_p = result.params
-    pv = best_p.valuesdict()
-    success = bool(result.success)
-    message = str(result.message)
-    if not success:
-        warn(f"the velocity fit did not converge: {message}")
+    def _scale_errors(self, pv: dict[str, float]) -> None:
+        """Per-star error scaling (never below 1) from each star's chi-square and share of the dof."""
+        d, s = self.data, self.setup
+        mod1, mod2 = self.model(pv)
+        n = d.n1 + d.n2 + s.n_prior
+        dof_frac = max(n - s.n_free, 1) / n
+        chi1 = np.sum(((d.rv1[d.m1] - mod1[d.m1]) / d.e1[d.m1]) ** 2)
+        self.scale["primary"] = float(np.sqrt(max(1.0, chi1 / (d.n1 * dof_frac))))
+        if d.double:
+            chi2_ = np.sum(((d.rv2[d.m2] - mod2[d.m2]) / d.e2[d.m2]) ** 2)
+            self.scale["secondary"] = float(np.sqrt(max(1.0, chi2_ / (d.n2 * dof_frac))))
 
-    # --- covariance and samples -----------------------------------------------------------------
+    def statistics(self, pv: dict[str, float], jit_val: dict[str, float]) -> dict[str, Any]:
+        """Residuals, rms per star, chi-square (quoted errors, fitted jitter, priors) and its reduced value."""
+        d, s = self.data, self.setup
+        mod1, mod2 = self.model(pv)
+        res1 = np.where(d.m1, d.rv1 - mod1, np.nan)
+        res2 = np.where(d.m2, d.rv2 - mod2, np.nan)
+        rms1 = float(np.sqrt(np.mean(res1[d.m1] ** 2)))
+        rms2 = float(np.sqrt(np.mean(res2[d.m2] ** 2))) if d.double else float("nan")
+        chisqr = float(np.sum(res1[d.m1] ** 2 / (d.e1[d.m1] ** 2 + jit_val["primary"] ** 2)))
+        if d.double:
+            chisqr += float(np.sum(res2[d.m2] ** 2 / (d.e2[d.m2] ** 2 + jit_val["secondary"] ** 2)))
+        for name, mu, sig in self.priors:
+            x = self.t_ref + pv["t0_offset"] if name == "t0" else pv[name]
+            chisqr += ((x - mu) / sig) ** 2
+        dof = d.n1 + d.n2 + s.n_prior - s.n_free
+        redchi = chisqr / dof if dof > 0 else float("nan")
+        return {"residuals_primary": res1, "residuals_secondary": res2, "rms_primary": rms1,
+                "rms_secondary": rms2, "chisqr": chisqr, "redchi": float(redchi)}
+
+
+def _covariance_samples(result: Any, n_samples: int, rng: np.random.Generator, notes: _notes.Notes
+                        ) -> tuple[dict[str, float] | None, dict[str, np.ndarray]]:
+    """Standard errors of the free parameters and draws of every orbit parameter from their normal.
+
+    Without a usable covariance the standard errors are None and every draw is the best fit.
+    """
+    pv = result.params.valuesdict()
     var_names = list(result.var_names)
     covar = result.covar
     if covar is None or not np.all(np.isfinite(covar)) or np.any(np.diag(covar) < 0):
-        warn("the covariance of the velocity fit could not be estimated (degenerate data?); "
-             "uncertainties are not available")
+        notes.warn("the covariance of the velocity fit could not be estimated (degenerate data?); "
+                   "uncertainties are not available")
         covar = None
-    stderr: dict[str, float | None] = {}
+    stderr = None
     if covar is not None:
-        for i, name in enumerate(var_names):
-            stderr[name] = float(np.sqrt(covar[i, i]))
-        draws = rng.multivariate_normal([pv[n] for n in var_names], covar, size=int(n_samples),
+        stderr = {name: float(np.sqrt(covar[i, i])) for i, name in enumerate(var_names)}
+        draws = rng.multivariate_normal([pv[n] for n in var_names], covar, size=n_samples,
                                         method="eigh", check_valid="ignore")
     else:
-        draws = np.tile([pv[n] for n in var_names], (int(n_samples), 1))
+        draws = np.tile([pv[n] for n in var_names], (n_samples, 1))
     samp: dict[str, np.ndarray] = {}
     for name in ("k_primary", "k_secondary", "gamma", "gamma_offset", "ecosw", "esinw", "period", "t0_offset"):
         if name in var_names:
             samp[name] = draws[:, var_names.index(name)]
         else:
-            samp[name] = np.full(int(n_samples), pv.get(name, np.nan if name == "k_secondary" else 0.0))
+            samp[name] = np.full(n_samples, pv.get(name, np.nan if name == "k_secondary" else 0.0))
+    return stderr, samp
+
+
+def _jitter_estimates(jitter_result: Any, data: _Velocities, notes: _notes.Notes
+                      ) -> tuple[dict[str, float], dict[str, float | None]]:
+    """Fitted jitter per star and its error from the Fisher information (None when consistent with zero)."""
     jit_val = {"primary": 0.0, "secondary": 0.0}
     jit_err: dict[str, float | None] = {"primary": None, "secondary": None}
-    if jitter:
-        for star, mask, err in (("primary", m1, e1), ("secondary", m2, e2)):
-            name = f"jitter_{star}"
-            if name not in jitter_result.params:
-                continue
-            s = float(jitter_result.params[name].value)
-            jit_val[star] = s
-            fisher = 2 * s**2 * np.sum(1 / (err[mask] ** 2 + s**2) ** 2)
-            if s > 1e-3 * float(np.median(err[mask])) and fisher > 0:
-                jit_err[star] = float(1 / np.sqrt(fisher))
-            else:
-                warn(f"the {star}'s jitter is consistent with zero")
-    for star in ("primary", "secondary"):
-        sd = jit_err[star] or 0.0
-        samp[f"jitter_{star}"] = np.abs(jit_val[star] + sd * rng.standard_normal(int(n_samples)))
+    if jitter_result is None:
+        return jit_val, jit_err
+    for star, mask, err in (("primary", data.m1, data.e1), ("secondary", data.m2, data.e2)):
+        name = f"jitter_{star}"
+        if name not in jitter_result.params:
+            continue
+        s = float(jitter_result.params[name].value)
+        jit_val[star] = s
+        fisher = 2 * s**2 * np.sum(1 / (err[mask] ** 2 + s**2) ** 2)
+        if s > 1e-3 * float(np.median(err[mask])) and fisher > 0:
+            jit_err[star] = float(1 / np.sqrt(fisher))
+        else:
+            notes.warn(f"the {star}'s jitter is consistent with zero")
+    return jit_val, jit_err
 
-    t0_best = t_ref + pv["t0_offset"]
+
+def _best_omega(pv: dict[str, float]) -> float:
+    return float(np.degrees(np.arctan2(pv["esinw"], pv["ecosw"])) % 360)
+
+
+def _add_derived_samples(samp: dict[str, np.ndarray], pv: dict[str, float], t_ref: float, double: bool) -> None:
+    """t0, e, omega (unwrapped around the best value), mass function, a sin i, q and M sin^3 i per sample."""
     samp["t0"] = t_ref + samp.pop("t0_offset")
     k2s = samp["k_secondary"]
     ecc = np.hypot(samp["ecosw"], samp["esinw"])
     samp["eccentricity"] = ecc
-    om_best = float(np.degrees(np.arctan2(pv["esinw"], pv["ecosw"])) % 360)
+    om_best = _best_omega(pv)
     om = np.degrees(np.arctan2(samp["esinw"], samp["ecosw"]))
-    samp["omega"] = om_best + (om - om_best + 180) % 360 - 180     # unwrapped around the best value
+    samp["omega"] = om_best + (om - om_best + 180) % 360 - 180
     ecc_c = np.clip(ecc, 0, 0.999)
     samp["mass_function"] = _mass_function(samp["period"], samp["k_primary"], ecc_c)
     samp["a1_sin_i"] = _asini(samp["period"], samp["k_primary"], 0.0, ecc_c)
@@ -562,11 +722,13 @@ def fit_velocities(
         samp["mass_primary_sin3i"], samp["mass_secondary_sin3i"] = m1s, m2s
         samp["a_sin_i"] = _asini(samp["period"], samp["k_primary"], k2s, ecc_c)
 
-    # best-fit values (derived ones from the best fit), errors from the fit or the samples
+
+def _best_values(pv: dict[str, float], t_ref: float, jit_val: dict[str, float], double: bool) -> dict[str, float]:
+    """Best-fit values; the derived ones computed from the best fit."""
     e_best = float(np.hypot(pv["ecosw"], pv["esinw"]))
     values = {"k_primary": pv["k_primary"], "k_secondary": pv.get("k_secondary", np.nan),
               "gamma": pv["gamma"], "gamma_offset": pv.get("gamma_offset", 0.0),
-              "ecosw": pv["ecosw"], "esinw": pv["esinw"], "eccentricity": e_best, "omega": om_best,
+              "ecosw": pv["ecosw"], "esinw": pv["esinw"], "eccentricity": e_best, "omega": _best_omega(pv),
               "mass_function": _mass_function(pv["period"], pv["k_primary"], e_best),
               "a1_sin_i": _asini(pv["period"], pv["k_primary"], 0.0, e_best)}
     if double:
@@ -577,65 +739,47 @@ def fit_velocities(
     else:
         values["mass_ratio"] = np.nan
     values.update(jitter_primary=jit_val["primary"], jitter_secondary=jit_val["secondary"],
-                  period=pv["period"], t0=t0_best)
-    values = {k: float(v) for k, v in values.items()}
+                  period=pv["period"], t0=t_ref + pv["t0_offset"])
+    return {k: float(v) for k, v in values.items()}
 
+
+_DERIVED = ("eccentricity", "omega", "mass_function", "a1_sin_i", "mass_ratio", "mass_primary_sin3i",
+            "mass_secondary_sin3i", "a_sin_i")
+
+
+def _uncertainties(values: dict[str, float], var_names: list[str], stderr: dict[str, float] | None,
+                   samp: dict[str, np.ndarray], jit_err: dict[str, float | None]) -> dict[str, float | None]:
+    """Errors of the free parameters from the covariance, of derived ones from the samples; None when fixed."""
     uncert: dict[str, float | None] = {}
-    free_names = {"t0": "t0_offset"}
     for k in values:
-        src = free_names.get(k, k)
+        src = "t0_offset" if k == "t0" else k
         if k.startswith("jitter_"):
             uncert[k] = jit_err[k.split("_")[1]]
         elif src in var_names:
-            uncert[k] = stderr.get(src)
-        elif k in ("eccentricity", "omega", "mass_function", "a1_sin_i", "mass_ratio", "mass_primary_sin3i",
-                   "mass_secondary_sin3i", "a_sin_i") and covar is not None and np.isfinite(values[k]):
+            uncert[k] = None if stderr is None else stderr[src]
+        elif k in _DERIVED and stderr is not None and np.isfinite(values[k]):
             sd = float(np.std(samp[k]))
             uncert[k] = sd if sd > 1e-12 * max(abs(values[k]), 1e-12) else None  # None: fixed
         else:
             uncert[k] = None
-    if uncert.get("omega") is not None and e_best < (uncert.get("eccentricity") or 0):
-        warn("e is smaller than its uncertainty: omega is undefined")
-    samples = {k: np.asarray(samp[k], float) for k in values if k in samp}
-    samples["t0"] = samp["t0"]
+    return uncert
 
-    # --- residuals, rms, chi-square ----------------------------------------------------------------
-    mod1, mod2 = model_at(pv)
-    res1 = np.where(m1, rv1 - mod1, np.nan)
-    res2 = np.where(m2, rv2 - mod2, np.nan)
-    rms1 = float(np.sqrt(np.mean(res1[m1] ** 2)))
-    rms2 = float(np.sqrt(np.mean(res2[m2] ** 2))) if double else float("nan")
-    chisqr = float(np.sum(res1[m1] ** 2 / (e1[m1] ** 2 + jit_val["primary"] ** 2)))
-    if double:
-        chisqr += float(np.sum(res2[m2] ** 2 / (e2[m2] ** 2 + jit_val["secondary"] ** 2)))
-    for name, mu, sig in priors:
-        x = t0_best if name == "t0" else pv[name]
-        chisqr += ((x - mu) / sig) ** 2
-    dof = n_data + n_prior - n_free
-    redchi = chisqr / dof if dof > 0 else float("nan")
-    if not jitter:
-        for star, s in scale.items():
+
+def _quality_notes(problem: _VelocityProblem, pv: dict[str, float], notes: _notes.Notes) -> None:
+    """Warnings about the data: scaled errors, phase coverage, few secondary velocities."""
+    d = problem.data
+    if not problem.setup.jitter:
+        for star, s in problem.scale.items():
             if s > 1.5:
-                warn(f"the {star}'s velocity scatter is {s:.2f}x its quoted errors; errors were scaled "
-                     f"(consider jitter=True)")
-
-    # --- coverage checks -----------------------------------------------------------------------------
-    phase = np.sort(((time[m1] - t0_best) / pv["period"]) % 1.0)
+                notes.warn(f"the {star}'s velocity scatter is {s:.2f}x its quoted errors; errors were scaled "
+                           f"(consider jitter=True)")
+    t0_best = problem.t_ref + pv["t0_offset"]
+    phase = np.sort(((d.time[d.m1] - t0_best) / pv["period"]) % 1.0)
     gaps = np.diff(np.concatenate([phase, phase[:1] + 1]))
     if gaps.size and gaps.max() > 0.5:
-        warn(f"the primary's velocities leave a phase gap of {gaps.max():.2f}; K and e are poorly constrained")
-    if double and n2 < 3:
-        warn(f"only {n2} secondary velocities: K2 rests on very few points")
-    if not double:
-        notes.append("single-lined: K1 and the mass function only; masses need the secondary's velocities")
-
-    free = [("t0" if n == "t0_offset" else n) for n in var_names]
-    if jitter:
-        free += [n for n in ("jitter_primary", "jitter_secondary") if n in params]
-    return OrbitFit(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
-                    samples=samples, free=free, rv=rv, residuals_primary=res1, residuals_secondary=res2,
-                    rms_primary=rms1, rms_secondary=rms2, error_scale_primary=scale["primary"],
-                    error_scale_secondary=scale["secondary"], chisqr=chisqr, redchi=float(redchi),
-                    n_free=n_free, n_data=n_data, double_lined=double, jitter=bool(jitter),
-                    separate_gamma=bool(separate_gamma), success=success, message=message,
-                    warnings=notes, lmfit_result=result, inclination=incl)
+        notes.warn(f"the primary's velocities leave a phase gap of {gaps.max():.2f}; K and e are poorly "
+                   f"constrained")
+    if d.double and d.n2 < 3:
+        notes.warn(f"only {d.n2} secondary velocities: K2 rests on very few points")
+    if not d.double:
+        notes.note("single-lined: K1 and the mass function only; masses need the secondary's velocities")

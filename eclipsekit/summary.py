@@ -35,8 +35,22 @@ _TITLES = {
 }
 
 
-def format_value(value: float | None, uncertainty: float | None = None) -> str:
-    """``value ± uncertainty`` with the uncertainty to two significant figures.
+def format_value(value: float | None, uncertainty: float | None = None, *, digits: int = 6) -> str:
+    """``value ± uncertainty``, rounded to the precision of the uncertainty.
+
+    The uncertainty is given to two significant figures and the value to the same
+    decimal place (common practice).  The one number formatter of every summary table.
+
+    Parameters
+    ----------
+    value : float or None
+        None or a non-finite value prints as a dash.
+    uncertainty : float or None
+        None, zero or a non-finite uncertainty (a fixed or exact value) prints the value
+        alone, to ``digits`` significant figures (or 5 decimals from 1e5 up, e.g. a
+        Julian date).
+    digits : int
+        Significant figures of a value without uncertainty.
 
     Examples
     --------
@@ -44,11 +58,13 @@ def format_value(value: float | None, uncertainty: float | None = None) -> str:
     '1.235 ± 0.012'
     >>> format_value(2459001.234567891, None)
     '2459001.23457'
+    >>> format_value(3.14159265358979, None, digits=11)
+    '3.1415926536'
     """
     if value is None or not math.isfinite(value):
         return "—"
     if uncertainty is None or not math.isfinite(uncertainty) or uncertainty <= 0:
-        return f"{value:.6g}" if abs(value) < 1e5 else f"{value:.5f}"
+        return f"{value:.{digits}g}" if abs(value) < 1e5 else f"{value:.5f}"
     decimals = max(0, 1 - int(math.floor(math.log10(uncertainty))))
     decimals = min(decimals, 12)
     return f"{value:.{decimals}f} ± {uncertainty:.{decimals}f}"
