@@ -10,8 +10,7 @@ from .orbit import (conjunction_times, radial_velocities, secondary_phase, sky_s
                     true_anomaly)
 from .eclipse import eclipse_properties, light_ratio, model_flux, occulted_fraction
 from .period import PeriodSearch, find_period
-from .fitting import EclipseFit, fit_eclipses
-from .joint import fit_joint
+from .fit import EclipseFit, fit_eclipses, fit_joint
 from .spectroscopy import OrbitFit, fit_velocities
 from .dimensions import AbsoluteDimensions, absolute_dimensions
 from .pipeline import Analysis, analyse

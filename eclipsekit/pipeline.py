@@ -277,7 +277,7 @@ def analyse(
         significant; the later steps are then skipped.
     """
     from .dimensions import absolute_dimensions
-    from .fitting import fit_eclipses
+    from .fit import fit_eclipses
     from .period import find_period
     from .spectroscopy import fit_velocities
 
