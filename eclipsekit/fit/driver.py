@@ -145,6 +145,7 @@ class _Driver:
         self.problems: list[Problem] = []
 
     def problem(self, mask: np.ndarray | None) -> Problem:
+        """A residual problem of the current light curve (every point when ``mask`` is None)."""
         st = self.settings
         pr = build_problem(self.lc, mask, mapping=self.mapping, gap=st.gap, degree=st.baseline_degree,
                            ld_law=st.ld_law, exposure_time=st.exposure_time, supersample=st.supersample)
@@ -217,6 +218,7 @@ class _Driver:
         return best[0], best[1], best[3]
 
     def perturbed(self, v1: Mapping[str, float]) -> list[dict[str, float]]:
+        """Restarts around a first result: k x 0.8 and x 1.25, i halfway to 90 deg, r1 + r2 x 0.9."""
         out = []
         for name, how in (("radius_ratio", 0.8), ("radius_ratio", 1.25), ("inclination", 0.5), ("radius_sum", 0.9)):
             if name not in self.initial.vary:

@@ -22,7 +22,8 @@ from .settings import FitSettings, make_settings
 from .start import estimate_start
 from .uncertainties import METHODS, UncertaintyContext, UncertaintyEstimate, UncertaintyMethod
 
-__all__ = ["LightCurveSolution", "fit_light_curve"]
+__all__ = ["LightCurveSolution", "fit_light_curve", "start_values", "estimate_uncertainties", "derive",
+           "run_checks"]
 
 
 @dataclass(frozen=True)
@@ -56,20 +57,9 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     initial = initial_parameters(lc, start_values(lc, start, settings), settings)
     sol = solve(lc, initial, settings)
     estimate, runner, method = estimate_uncertainties(sol, settings, rng)
+    sol.diagnostics.update(estimate.diagnostics)
     values, unc, samples = derive(sol, settings, estimate, runner, method, rng)
-    warn = sol.warnings + estimate.warnings
-    warn += validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
-                              sol.durations, sol.redchi, sol.diagnostics.get("redchi_reference", 1.0))
-    if not sol.success:
-        warn.append(f"fit did not converge cleanly: {sol.message}")
-    diag = sol.diagnostics
-    diag.update(estimate.diagnostics)
-    free = sol.problem.mapping.free
-    if settings.check_limb_darkening and settings.ld_law != "uniform" and not {"ld1_1", "ld2_1"} & set(free):
-        diag["limb_darkening_check"] = shift = _limb_darkening_check(sol, settings, values, unc)
-        msg = limb_darkening_warning(shift, values)
-        if msg:
-            warn.append(msg)
+    warn = run_checks(sol, settings, values, unc, sol.warnings + estimate.warnings)
     fit = _result(sol, initial, settings, values, unc, samples, estimate, warn, _time.perf_counter() - t_start)
     return LightCurveSolution(fit=fit, least_squares=sol, initial=initial, settings=settings)
 
@@ -133,6 +123,23 @@ def derive(sol: LeastSquaresSolution, settings: FitSettings, estimate: Uncertain
     return ordered, unc, samples
 
 
+def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[str, float],
+               unc: dict[str, float | None], warn: list[str]) -> list[str]:
+    """``warn`` followed by the validity warnings, a failed convergence and the limb-darkening check's."""
+    warn = list(warn)
+    warn += validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
+                              sol.durations, sol.redchi, sol.diagnostics.get("redchi_reference", 1.0))
+    if not sol.success:
+        warn.append(f"fit did not converge cleanly: {sol.message}")
+    free = sol.problem.mapping.free
+    if settings.check_limb_darkening and settings.ld_law != "uniform" and not {"ld1_1", "ld2_1"} & set(free):
+        sol.diagnostics["limb_darkening_check"] = shift = _limb_darkening_check(sol, settings, values, unc)
+        msg = limb_darkening_warning(shift, values)
+        if msg:
+            warn.append(msg)
+    return warn
+
+
 def _limb_darkening_check(sol: LeastSquaresSolution, settings: FitSettings, values: dict[str, float],
                           unc: dict[str, float | None]) -> dict[str, float]:
     """:func:`~eclipsekit.fit.checks.limb_darkening_shift` with a refit of this light curve from ``values``."""
@@ -170,5 +177,4 @@ def _result(sol: LeastSquaresSolution, initial: InitialParameters, settings: Fit
                       exposure_time=settings.exposure_time, supersample=settings.supersample,
                       lmfit_result=estimate.lmfit_result if estimate.lmfit_result is not None else sol.result,
                       warnings=warn, success=sol.success, message=str(sol.message), diagnostics=diag,
-                      covariance=sol.covariance, n_baseline=full.n_linear, segments=full.segments, _problem=full,
-                      _fit_problem=pr)
+                      covariance=sol.covariance, n_baseline=full.n_linear, segments=full.segments, _problem=full)

@@ -95,7 +95,6 @@ class EclipseFit:
     segments: list[tuple[float, float]] = field(default_factory=list)
     orbit: Any = None
     _problem: Any = field(default=None, repr=False)
-    _fit_problem: Any = field(default=None, repr=False)
 
     @property
     def detrended_flux(self) -> np.ndarray:

@@ -12,16 +12,27 @@ parameterisation, which the caller maps to physical values through the context's
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Callable, Mapping, Protocol
+from typing import Any, Callable, Mapping, Protocol
 
 import numpy as np
 
-if TYPE_CHECKING:  # annotations only: the settings module reads the registry of methods
-    from ..parameters import ParameterMap
-    from ..problem import Problem
-    from ..settings import FitSettings
+from ..parameters import ParameterMap
+from ..problem import Problem
 
-__all__ = ["UncertaintyContext", "UncertaintyEstimate", "UncertaintyMethod"]
+__all__ = ["UncertaintyContext", "UncertaintyEstimate", "UncertaintyMethod", "UncertaintyOptions"]
+
+
+class UncertaintyOptions(Protocol):
+    """The options the plug-ins read (a :class:`~eclipsekit.fit.settings.FitSettings` has them all)."""
+
+    n_samples: int
+    mcmc_walkers: int
+    mcmc_steps: int
+    mcmc_burn: int | None
+    mcmc_thin: int | None
+    n_shifts: int | None
+    progress: bool
+    seed: int | None
 
 
 @dataclass(frozen=True)
@@ -44,7 +55,7 @@ class UncertaintyContext:
         Reduced chi-square of ``problem`` at the best fit.
     rng : numpy.random.Generator
         The fit's random generator (draws must keep their order for reproducibility).
-    settings : FitSettings
+    settings : UncertaintyOptions
         The fit's options (sample counts, MCMC settings, seed, progress).
     model_full, residuals_full : ndarray
         Model times baseline and the residuals at every point of the light curve.
@@ -60,7 +71,7 @@ class UncertaintyContext:
     covariance: np.ndarray | None
     redchi: float
     rng: np.random.Generator
-    settings: FitSettings
+    settings: UncertaintyOptions
     model_full: np.ndarray | None = None
     residuals_full: np.ndarray | None = None
     refit: Callable[[np.ndarray, int], Mapping[str, float]] | None = None
