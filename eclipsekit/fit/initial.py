@@ -9,8 +9,8 @@ import numpy as np
 
 from ..data import LightCurve
 from ..errors import InputError
-from .parameters import DEFAULT_FREE, INTERNAL_NAMES, LD_LAWS, PARAMETERS, ParameterMap, bounds, is_finite, \
-    parameter_names
+from .parameters import (DEFAULT_FREE, INTERNAL_NAMES, LD_LAWS, PARAMETERS, ParameterMap, bounds, is_finite,
+                         parameter_names)
 from .settings import FitSettings
 
 __all__ = ["InitialParameters", "initial_parameters"]

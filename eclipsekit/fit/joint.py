@@ -305,6 +305,7 @@ def _joint_problem(lc_sol: LightCurveSolution, orbit0: OrbitFit, rv: Any, fix_se
     mapping = ParameterMap(free=free_names, fixed=lc_map.fixed, t_ref=lc_map.t_ref, p_ref=lc_map.p_ref,
                            n_cycles=lc_map.n_cycles, limits=[bounds_of(n) for n in free_names])
     pr_lc = lc_sol.least_squares.problem
+    # the light curve keeps its own weight: flux errors scaled as its covariance was (undone in the statistics)
     pr_lc.set_err_scale(math.sqrt(lc_sol.least_squares.redchi_fit))
     scale = {"primary": orbit0.error_scale_primary, "secondary": orbit0.error_scale_secondary}
     return _JointProblem(pr_lc, mapping, rv, scale, double), values0
