@@ -28,7 +28,7 @@ _LAZY = {
     "secondary_phase": "orbit", "radial_velocities": "orbit",
     # the analysis steps
     "find_period": "period", "PeriodSearch": "period",
-    "fit_eclipses": "fitting", "EclipseFit": "fitting", "fit_joint": "joint",
+    "fit_eclipses": "fit", "EclipseFit": "fit", "fit_joint": "fit",
     "fit_velocities": "spectroscopy", "OrbitFit": "spectroscopy",
     "absolute_dimensions": "dimensions", "AbsoluteDimensions": "dimensions",
     "analyse": "pipeline", "Analysis": "pipeline",

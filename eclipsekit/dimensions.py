@@ -501,7 +501,7 @@ def absolute_dimensions(
     Parameters
     ----------
     eclipse_fit : object, optional
-        A light-curve fit (e.g. :class:`~eclipsekit.fitting.EclipseFit`) or anything with
+        A light-curve fit (e.g. :class:`~eclipsekit.fit.EclipseFit`) or anything with
         ``values``, ``uncertainties`` and ``samples`` dicts holding ``period``,
         ``inclination`` (deg), ``frac_radius_primary``, ``frac_radius_secondary`` and
         ``eccentricity`` (or ``ecosw`` and ``esinw``).

@@ -362,7 +362,7 @@ def _search_period(analysis: Analysis, options: _RunOptions, period: float | Non
 
 def _fit_light_curve(analysis: Analysis, start: Any, options: _RunOptions) -> None:
     """The eclipse fit (joint with the velocities when asked)."""
-    from .fitting import fit_eclipses
+    from .fit import fit_eclipses
 
     with _Timer(analysis.timings, "joint fit" if options.joint else "eclipse fit"):
         analysis.eclipse_fit = fit_eclipses(

@@ -257,7 +257,7 @@ def fit_velocities(
         Velocities (km/s) of the primary and, for a double-lined binary, the secondary
         (NaN where a star was not measured).
     ephemeris : object, optional
-        The light-curve ephemeris: an :class:`~eclipsekit.fitting.EclipseFit`, a
+        The light-curve ephemeris: an :class:`~eclipsekit.fit.EclipseFit`, a
         :class:`~eclipsekit.period.PeriodSearch` or anything with ``values["period"]``,
         ``values["t0"]`` (and optionally ``ecosw``, ``esinw``, ``uncertainties``,
         ``samples``), or attributes ``period``, ``t0``, ``period_err``, ``t0_err``.

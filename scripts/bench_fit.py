@@ -27,7 +27,7 @@ import numpy as np
 from eclipsekit import eclipse
 from eclipsekit.data import LightCurve
 from eclipsekit.errors import EclipsekitWarning
-from eclipsekit.fitting import fit_eclipses
+from eclipsekit.fit import fit_eclipses
 
 TRUTH = dict(period=3.4713, t0=2460101.3217, radius_sum=0.185, radius_ratio=0.78, inclination=88.1,
              surface_brightness_ratio=0.62, ecosw=0.012, esinw=-0.035, third_light=0.0)
@@ -135,7 +135,7 @@ def main(argv=None) -> int:
                                                                           "surface_brightness_ratio")}
     print("deviation from truth in sigma:", {k: round(v, 2) for k, v in dev.items()})
 
-    from eclipsekit.fitting import estimate_start
+    from eclipsekit.fit import estimate_start
 
     st = estimate_start(search)
     start = {k: st[k] for k in ("period", "t0", "radius_sum", "radius_ratio", "inclination",

@@ -26,7 +26,7 @@ from _brute_force import brute_force_flux  # noqa: E402
 
 from eclipsekit.data import LightCurve  # noqa: E402
 from eclipsekit.errors import EclipsekitWarning  # noqa: E402
-from eclipsekit.fitting import fit_eclipses  # noqa: E402
+from eclipsekit.fit import fit_eclipses  # noqa: E402
 
 SYSTEMS = {
     # total/annular eclipses, circular

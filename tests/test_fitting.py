@@ -16,7 +16,7 @@ import pytest
 
 from eclipsekit.data import LightCurve
 from eclipsekit.errors import EclipsekitWarning, FitError, InputError
-from eclipsekit.fitting import EclipseFit, estimate_start, fit_eclipses
+from eclipsekit.fit import EclipseFit, estimate_start, fit_eclipses
 
 from _brute_force import DiscGrid, brute_force_flux, overlap_area
 

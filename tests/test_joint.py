@@ -22,8 +22,8 @@ from eclipsekit.data import LightCurve, VelocityCurve
 from eclipsekit.dimensions import absolute_dimensions
 from eclipsekit.eclipse import model_flux
 from eclipsekit.errors import EclipsekitWarning, InputError
-from eclipsekit.fitting import EclipseFit, fit_eclipses
-from eclipsekit.joint import fit_joint
+from eclipsekit.fit import EclipseFit, fit_eclipses
+from eclipsekit.fit import fit_joint
 from eclipsekit.spectroscopy import OrbitFit
 
 BJD0 = 2460000.0

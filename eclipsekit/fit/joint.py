@@ -9,7 +9,7 @@ together tightens e sin w, and through it e and the masses.
 
 Why the code looks the way it does
 ----------------------------------
-* The light-curve part is exactly the residual vector of :func:`~eclipsekit.fitting.
+* The light-curve part is exactly the residual vector of :func:`~eclipsekit.fit.
   fit_eclipses` (same epoch/period offsets, same variable-projection baseline, same
   windowed and binned points), taken from a light-curve-only fit that also gives the
   start values, the outlier rejection and the windows.  The velocity residuals
@@ -33,30 +33,37 @@ from typing import Any, Iterable, Mapping
 import lmfit
 import numpy as np
 
-from . import orbit as _orbit
-from .data import LightCurve
-from .dimensions import mass_function as _mass_function
-from .dimensions import minimum_masses as _minimum_masses
-from .dimensions import projected_semi_major_axis as _asini
-from .errors import EclipsekitWarning, FitError, InputError
-from .fitting import (DERIVED, EclipseFit, _bounds, _central_jacobian, _depth_samples, _depths, _derived_from,
-                      _expand, _truncated_normal_draws, _unit, fit_eclipses)
-from .spectroscopy import _UNITS as _ORBIT_UNITS
-from .spectroscopy import OrbitFit, fit_velocities
+from .. import orbit as _orbit
+from ..data import LightCurve
+from ..dimensions import mass_function as _mass_function
+from ..dimensions import minimum_masses as _minimum_masses
+from ..dimensions import projected_semi_major_axis as _asini
+from ..errors import EclipsekitWarning, FitError, InputError
+from ..spectroscopy import _UNITS as _ORBIT_UNITS
+from ..spectroscopy import OrbitFit, fit_velocities
+from .derived import add_derived_samples, add_derived_values, summarise_samples
+from .driver import central_jacobian, chi_square, run_least_squares
+from .lightcurve import LightCurveSolution, fit_light_curve
+from .parameters import DERIVED, ParameterMap, bounds, expand_names, unit
+from .problem import Problem
+from .result import EclipseFit
+from .settings import make_settings
+from .uncertainties import METHODS, UncertaintyContext, UncertaintyEstimate
 
-__all__ = ["fit_joint", "VELOCITY_PARAMETERS"]
+__all__ = ["fit_joint", "joint_fit", "VELOCITY_PARAMETERS"]
 
 #: velocity parameters added to the light-curve parameters -> unit
 VELOCITY_PARAMETERS: dict[str, str] = {"k_primary": "km / s", "k_secondary": "km / s", "gamma": "km / s",
                                        "gamma_offset": "km / s"}
-_INTERNAL = {"t0": "t0_offset", "period": "period_offset"}
 
 
 class _JointProblem:
-    """Light-curve residuals (a fitting._Problem) followed by the velocity residuals of both stars."""
+    """Light-curve residuals (a :class:`~eclipsekit.fit.problem.Problem`) followed by the velocity residuals."""
 
-    def __init__(self, lc_problem: Any, rv: Any, scale: dict[str, float], double: bool):
+    def __init__(self, lc_problem: Problem, mapping: ParameterMap, rv: Any, scale: dict[str, float],
+                 double: bool):
         self.lc = lc_problem
+        self.mapping = mapping
         self.time = np.asarray(rv.time, float)
         self.v1, self.e1 = np.asarray(rv.rv1, float), np.asarray(rv.rv1_err, float)
         self.m1 = np.isfinite(self.v1)
@@ -66,12 +73,6 @@ class _JointProblem:
             self.m2 = np.isfinite(self.v2)
         self.scale = dict(scale)
         self.n_rv = int(self.m1.sum() + (self.m2.sum() if double else 0))
-
-    def physical(self, internal: Mapping[str, float]) -> dict[str, float]:
-        return self.lc.physical(internal)
-
-    def internal_value(self, name: str, value: float) -> float:
-        return self.lc.internal_value(name, value)
 
     def velocities(self, v: Mapping[str, float], time: np.ndarray | None = None):
         """Model velocities (km/s) of both stars for physical values ``v``."""
@@ -93,7 +94,7 @@ class _JointProblem:
         return out
 
     def residual_from(self, internal: Mapping[str, float]) -> np.ndarray:
-        v = self.physical(internal)
+        v = self.mapping.physical(internal)
         return np.concatenate([self.lc.evaluate(v)[2], *self.rv_residuals(v)])
 
     def residual(self, params: lmfit.Parameters) -> np.ndarray:
@@ -146,9 +147,9 @@ def fit_joint(
     velocities : VelocityCurve
         Radial velocities (km/s) of the primary and, double-lined, the secondary.
     start : PeriodSearch, EclipseFit, dict, optional
-        Start of the light-curve fit, as for :func:`~eclipsekit.fitting.fit_eclipses`.
+        Start of the light-curve fit, as for :func:`~eclipsekit.fit.fit_eclipses`.
     fix, free : list of str
-        As for :func:`~eclipsekit.fitting.fit_eclipses`.  ``ecosw`` and ``esinw`` are
+        As for :func:`~eclipsekit.fit.fit_eclipses`.  ``ecosw`` and ``esinw`` are
         free in the joint fit unless listed in ``fix`` (the point of fitting jointly).
     errors : {"covariance"}
         Only covariance uncertainties are available for the joint fit.
@@ -161,7 +162,7 @@ def fit_joint(
     seed : int, optional
         Random seed of the samples.
     **kwargs
-        Further arguments of :func:`~eclipsekit.fitting.fit_eclipses` (``period``,
+        Further arguments of :func:`~eclipsekit.fit.fit_eclipses` (``period``,
         ``t0``, ``ld_law``, ``ld_primary``, ``exposure_time``, ``window``, fixed
         parameter values, ...).
 
@@ -192,7 +193,7 @@ def fit_joint(
     Numer. Anal. 10, 413), and v1 = gamma + K1 [cos(nu + w) + e cos w], v2 = gamma +
     gamma_offset - K2 [cos(nu + w) + e cos w] (Hilditch 2001, An Introduction to Close
     Binary Stars, eq. 2.45), both on one Keplerian orbit with the primary eclipse at
-    true anomaly 90 deg - w.  Start values: :func:`~eclipsekit.fitting.fit_eclipses`,
+    true anomaly 90 deg - w.  Start values: :func:`~eclipsekit.fit.fit_eclipses`,
     then :func:`~eclipsekit.spectroscopy.fit_velocities` on its ephemeris.  The
     residuals of both data sets form one least-squares problem (each set weighted by its
     own error scale, see the module notes); the covariance is the inverse of J^T J from
@@ -200,43 +201,85 @@ def fit_joint(
     it, so the velocity and light-curve parameters keep their correlations (e.g. K
     with e sin w, e sin w with the radii).
     """
+    fit = joint_fit(lc, velocities, start, fix=fix, free=free, errors=errors, separate_gamma=separate_gamma,
+                    n_samples=n_samples, progress=progress, seed=seed, **kwargs)
+    for msg in fit.warnings:
+        warnings.warn(msg, EclipsekitWarning, stacklevel=2)
+    return fit
+
+
+def joint_fit(lc: LightCurve, velocities: Any, start: Any = None, *, fix: Iterable[str] = (),
+              free: Iterable[str] = (), errors: str = "covariance", separate_gamma: bool = False,
+              n_samples: int = 4000, progress: bool = True, seed: int | None = None, **kwargs: Any) -> EclipseFit:
+    """:func:`fit_joint` without issuing the warnings (they are in the result's ``warnings``)."""
     t_start = _time.perf_counter()
-    if not all(hasattr(velocities, a) for a in ("time", "rv1", "rv1_err", "rv2", "rv2_err")):
+    double = _check_velocities(velocities, errors, n_samples, separate_gamma)
+    rng = np.random.default_rng(seed)
+    notes: list[str] = []
+    # -- start: light curve alone, then the velocities on its ephemeris -------------------
+    with warnings.catch_warnings():
+        # its warnings describe the light curve and the model's validity: re-issued with the joint fit's
+        warnings.simplefilter("ignore", EclipsekitWarning)
+        settings = make_settings(lc, fix=fix, free=free, n_samples=min(int(n_samples), 200), progress=progress,
+                                 seed=seed, **kwargs)
+        lc_sol = fit_light_curve(lc, start, settings)
+    lc_fit = lc_sol.fit
+    with warnings.catch_warnings():
+        # its notes (e.g. e sin w moved away from the light curve's value) concern the start only
+        warnings.simplefilter("ignore", EclipsekitWarning)
+        orbit0 = fit_velocities(velocities, lc_fit, separate_gamma=separate_gamma, fit_eccentricity=True,
+                                n_samples=100, seed=seed)
+    n_vel = 2 + int(double) + int(separate_gamma)
+    n_rv_total = int(np.isfinite(np.asarray(velocities.rv1, float)).sum()) + _n_secondary(velocities)
+    if n_rv_total <= n_vel + 1:
+        raise InputError(f"{n_rv_total} velocities cannot constrain {n_vel} velocity parameters and e sin w")
+    jp, values0 = _joint_problem(lc_sol, orbit0, velocities, expand_names(fix, lc_fit.ld_law, "fix"), double,
+                                 separate_gamma)
+    res, vbest = _solve(jp, values0, n_vel, notes)
+    cov, xbest = _covariance(jp, res, vbest)
+    ctx = UncertaintyContext(problem=jp, mapping=jp.mapping, best=vbest, x_best=xbest, covariance=cov, redchi=1.0,
+                             rng=rng, settings=dataclasses.replace(settings, n_samples=n_samples))
+    estimate = METHODS["covariance"].estimate(ctx)  # draws from the joint covariance
+    ordered, unc, samples = _values_and_samples(lc_sol, jp, vbest, estimate, rng)
+    stats = _light_curve_statistics(lc_sol, vbest, jp)
+    orbit_fit = _orbit_result(velocities, jp, vbest, samples, unc, jp.mapping.free, double, separate_gamma, res,
+                              notes)
+    success, message, joint = _verdict(lc_sol, jp, res, orbit0, notes)
+    diag = dict(lc_fit.diagnostics)
+    diag.update(seconds=_time.perf_counter() - t_start, joint={**joint, "velocity_error_scale": dict(jp.scale)})
+    return dataclasses.replace(
+        lc_fit, values=ordered, uncertainties=unc, units={n: VELOCITY_PARAMETERS[n] if n in VELOCITY_PARAMETERS else unit(n) for n in ordered},
+        samples=samples, **stats, n_free=len(jp.mapping.free), free=list(jp.mapping.free), lmfit_result=res,
+        warnings=list(lc_fit.warnings) + notes, success=success, message=message, diagnostics=diag,
+        covariance=cov, orbit=orbit_fit)
+
+
+def _n_secondary(rv: Any) -> int:
+    v1 = np.asarray(rv.rv1, float)
+    v2 = np.asarray(rv.rv2, float) if rv.rv2 is not None else np.full(v1.size, np.nan)
+    return int(np.isfinite(v2).sum())
+
+
+def _check_velocities(rv: Any, errors: str, n_samples: int, separate_gamma: bool) -> bool:
+    """Validate the joint fit's own arguments; True when the velocities are double-lined."""
+    if not all(hasattr(rv, a) for a in ("time", "rv1", "rv1_err", "rv2", "rv2_err")):
         raise InputError("`velocities` must be a VelocityCurve (see eclipsekit.read_velocities)")
     if errors != "covariance":
         raise InputError(f"the joint fit (`velocities=`) supports errors='covariance' only, got {errors!r}")
     if int(n_samples) != n_samples or n_samples < 1:
         raise InputError(f"`n_samples` must be a positive integer, got {n_samples!r}")
-    rv = velocities
-    v1 = np.asarray(rv.rv1, float)
-    v2 = np.asarray(rv.rv2, float) if rv.rv2 is not None else np.full(v1.size, np.nan)
-    n1, n2 = int(np.isfinite(v1).sum()), int(np.isfinite(v2).sum())
-    if n1 == 0:
+    if int(np.isfinite(np.asarray(rv.rv1, float)).sum()) == 0:
         raise InputError("`velocities` has no primary velocities (rv1)")
-    double = n2 > 0
+    double = _n_secondary(rv) > 0
     if separate_gamma and not double:
         raise InputError("`separate_gamma` needs double-lined velocities (rv2)")
-    rng = np.random.default_rng(seed)
-    notes: list[str] = []
+    return double
 
-    # -- start: light curve alone, then the velocities on its ephemeris -------------------
-    with warnings.catch_warnings():
-        # its warnings describe the light curve and the model's validity: re-issued once below
-        warnings.simplefilter("ignore", EclipsekitWarning)
-        lc_fit = fit_eclipses(lc, start, fix=fix, free=free, n_samples=min(int(n_samples), 200),
-                              progress=progress, seed=seed, **kwargs)
-    ld_law = lc_fit.ld_law
-    fix_set = _expand(fix, ld_law, "fix")
-    with warnings.catch_warnings():
-        # its notes (e.g. e sin w moved away from the light curve's value) concern the start only
-        warnings.simplefilter("ignore", EclipsekitWarning)
-        orbit0 = fit_velocities(rv, lc_fit, separate_gamma=separate_gamma, fit_eccentricity=True, n_samples=100,
-                                seed=seed)
-    n_vel = 2 + int(double) + int(separate_gamma)
-    if n1 + n2 <= n_vel + 1:
-        raise InputError(f"{n1 + n2} velocities cannot constrain {n_vel} velocity parameters and e sin w")
 
-    # -- parameters: the light curve's free ones, e cos w, e sin w, the velocity ones --------
+def _joint_problem(lc_sol: LightCurveSolution, orbit0: OrbitFit, rv: Any, fix_set: set[str], double: bool,
+                   separate_gamma: bool) -> tuple[_JointProblem, dict[str, float]]:
+    """The joint problem (the light curve's free parameters, e cos w, e sin w, the velocity ones) and its start."""
+    lc_fit, lc_map = lc_sol.fit, lc_sol.initial.mapping
     values0 = dict(lc_fit.values)
     shared = [n for n in ("ecosw", "esinw") if n not in fix_set]
     lc_free = [n for n in lc_fit.free] + [n for n in shared if n not in lc_fit.free]
@@ -247,68 +290,61 @@ def fit_joint(
     if "ecosw" not in lc_fit.free and "ecosw" in shared:
         # the light curve held e fixed (circular-looking): start e sin w from the velocities
         values0["esinw"] = float(orbit0.values["esinw"])
-    free_names = lc_free + vel_names
-    internal_names = [_INTERNAL.get(n, n) for n in free_names]
-    ib = lc_fit.diagnostics["internal_bounds"]
+    ib = lc_sol.initial.internal_bounds
 
-    def bounds_of(n: str, ni: str) -> tuple[float, float]:
+    def bounds_of(n: str) -> tuple[float, float]:
+        ni = {"t0": "t0_offset", "period": "period_offset"}.get(n, n)
         if ni in ib:
             return ib[ni]
         if n in VELOCITY_PARAMETERS:
             return (0.0, np.inf) if n.startswith("k_") else (-np.inf, np.inf)
-        lo, hi = _bounds(n, ld_law)
+        lo, hi = bounds(n, lc_fit.ld_law)
         return (-np.inf if lo is None else lo), (np.inf if hi is None else hi)
 
-    bnds = [bounds_of(n, ni) for n, ni in zip(free_names, internal_names)]
-
-    pr_lc = lc_fit._fit_problem
-    scale_lc = math.sqrt(lc_fit.diagnostics["redchi_window"])
-    pr_lc.set_err_scale(scale_lc)
+    free_names = lc_free + vel_names
+    mapping = ParameterMap(free=free_names, fixed=lc_map.fixed, t_ref=lc_map.t_ref, p_ref=lc_map.p_ref,
+                           n_cycles=lc_map.n_cycles, limits=[bounds_of(n) for n in free_names])
+    pr_lc = lc_sol.least_squares.problem
+    # the light curve keeps its own weight: flux errors scaled as its covariance was (undone in the statistics)
+    pr_lc.set_err_scale(math.sqrt(lc_sol.least_squares.redchi_fit))
     scale = {"primary": orbit0.error_scale_primary, "secondary": orbit0.error_scale_secondary}
-    jp = _JointProblem(pr_lc, rv, scale, double)
+    return _JointProblem(pr_lc, mapping, rv, scale, double), values0
 
-    def params_at(v: Mapping[str, float]) -> lmfit.Parameters:
-        p = lmfit.Parameters()
-        for n, ni, (lo, hi) in zip(free_names, internal_names, bnds):
-            x = float(np.clip(jp.internal_value(n, v[n]), lo, hi))
-            p.add(ni, value=x, min=lo, max=hi)
-        return p
 
-    def run(v: Mapping[str, float]):
-        mini = lmfit.Minimizer(jp.residual, params_at(v), nan_policy="propagate")
-        res = mini.least_squares(x_scale="jac", tr_solver="lsmr", max_nfev=200 * (len(free_names) + 1))
-        newv = dict(v)
-        newv.update(jp.physical(res.params.valuesdict()))
-        return res, newv
-
-    n_lc = pr_lc.time.size
+def _solve(jp: _JointProblem, values0: dict[str, float], n_vel: int, notes: list[str]
+           ) -> tuple[Any, dict[str, float]]:
+    """Least squares; then each star's velocity errors scaled to its own scatter (never shrunk) and a refit."""
     try:
-        res, vbest = run(values0)
-        # each star's velocity errors scaled to its own scatter (never shrunk), then refit
+        res, vbest = run_least_squares(jp, values0)
         dof_frac = max(jp.n_rv - n_vel - 1, 1) / jp.n_rv
         chis = [float(np.sum(r ** 2)) for r in jp.rv_residuals(vbest)]
-        counts = [n1, n2]
+        counts = [int(jp.m1.sum()), int(jp.m2.sum()) if jp.double else 0]
         new = dict(jp.scale)
         for star, c, n in zip(("primary", "secondary"), chis, counts):
             new[star] = float(jp.scale[star] * math.sqrt(max(1.0, c / (n * dof_frac))))
         if any(new[s] > 1.001 * jp.scale[s] for s in new):
             jp.scale = new
-            res, vbest = run(vbest)
+            res, vbest = run_least_squares(jp, vbest)
     except (ValueError, ArithmeticError, np.linalg.LinAlgError) as exc:
         raise FitError(f"the joint light-curve and velocity fit failed: {exc}") from exc
     for star in ("primary", "secondary"):
         if jp.scale[star] > 1.5:
             notes.append(f"the {star}'s velocity scatter is {jp.scale[star]:.2f}x its quoted errors; "
                          f"its errors were scaled")
+    return res, vbest
 
-    # -- covariance and samples ----------------------------------------------------------------
-    xbest = np.array([jp.internal_value(n, vbest[n]) for n in free_names])
+
+def _covariance(jp: _JointProblem, res: Any, vbest: Mapping[str, float]) -> tuple[np.ndarray, np.ndarray]:
+    """(J^T J)^-1 from a central-difference Jacobian at steps of 0.1 sigma, and the best-fit vector."""
+    pm = jp.mapping
+    xbest = pm.vector(vbest)
     cov = None
     jac = getattr(res, "jac", None)
     if jac is not None:
         try:
             cov = np.linalg.inv(jac.T @ jac)
-            jc = _central_jacobian(jp, free_names, internal_names, xbest, 0.1 * np.sqrt(np.abs(np.diag(cov))), bnds)
+            jc = central_jacobian(jp.residual_from, pm.internal, xbest, 0.1 * np.sqrt(np.abs(np.diag(cov))),
+                                  pm.limits)
             if jc is not None:
                 c2 = np.linalg.inv(jc.T @ jc)
                 if np.all(np.isfinite(c2)) and np.all(np.diag(c2) > 0):
@@ -320,70 +356,49 @@ def fit_joint(
     if cov is None:
         raise FitError("the covariance of the joint fit could not be estimated (singular problem); "
                        "fix some parameters")
-    lo_int = np.array([b[0] for b in bnds], float)
-    hi_int = np.array([b[1] for b in bnds], float)
-    i_inc = free_names.index("inclination") if "inclination" in free_names else None
+    return cov, xbest
 
-    def fold(x: np.ndarray) -> np.ndarray:
-        if i_inc is not None:  # i > 90 deg is the same geometry seen from the other side
-            x[:, i_inc] = 90.0 - np.abs(x[:, i_inc] - 90.0)
-        return x
 
-    x = _truncated_normal_draws(rng, xbest, cov, n_samples, lo_int, hi_int, fold)
-
+def _values_and_samples(lc_sol: LightCurveSolution, jp: _JointProblem, vbest: Mapping[str, float],
+                        estimate: UncertaintyEstimate, rng: np.random.Generator):
+    """Values, uncertainties and samples of the light-curve, derived and velocity quantities."""
+    lc_fit, pm = lc_sol.fit, jp.mapping
     lc_names = [n for n in lc_fit.values if n not in DERIVED]
+    vel_names = [n for n in pm.free if n in VELOCITY_PARAMETERS]
+    lc_free = [n for n in pm.free if n not in VELOCITY_PARAMETERS]
     par_names = lc_names + vel_names
-    samples: dict[str, np.ndarray] = {}
-    for n in par_names:
-        if n in free_names:
-            col = x[:, free_names.index(n)]
-            if n == "t0":
-                col = pr_lc.t_ref + col
-            elif n == "period":
-                col = pr_lc.p_ref + col / pr_lc.n_cyc
-            samples[n] = np.asarray(col, float)
-        else:
-            samples[n] = np.full(int(n_samples), vbest[n])
-    samples.update(_derived_from(samples))
-    samples["depth_primary"], samples["depth_secondary"] = _depth_samples(samples, lc_names, lc_free, ld_law, rng)
-
+    samples = pm.samples(estimate.draws, vbest, par_names)
+    add_derived_samples(samples, lc_names, lc_free, lc_fit.ld_law, rng)
     values = {n: float(vbest[n]) for n in par_names}
-    for k_, a in _derived_from({k: np.atleast_1d(values[k]) for k in lc_names}).items():
-        values[k_] = float(a[0])
-    try:
-        values["depth_primary"], values["depth_secondary"] = _depths(values, ld_law)
-    except (ValueError, ArithmeticError):
-        values["depth_primary"] = values["depth_secondary"] = float("nan")
-    sd = dict(zip(free_names, np.sqrt(np.diag(cov))))
-    if "period" in sd:
-        sd["period"] /= pr_lc.n_cyc  # fitted as the timing shift (P - P_ref) * n_cycles
-    unc: dict[str, float | None] = {}
-    for n in par_names + list(DERIVED):
-        s = samples[n][np.isfinite(samples[n])]
-        if n in sd:
-            unc[n] = float(sd[n])  # exact from the matrix (samples are truncated at bounds)
-        elif n in par_names or s.size < 2 or np.ptp(s) == 0:
-            unc[n] = None
-        else:
-            unc[n] = float(np.std(s, ddof=1))
+    add_derived_values(values, lc_names, lc_fit.ld_law)
+    unc = summarise_samples(samples, par_names, pm.free)
+    for n, s in estimate.sigma.items():
+        unc[n] = pm.sigma(n, s)  # exact from the matrix (samples are truncated at bounds)
     ordered = {n: values[n] for n in lc_names + list(DERIVED) + vel_names}
-    units = {n: (VELOCITY_PARAMETERS[n] if n in VELOCITY_PARAMETERS else _unit(n)) for n in ordered}
+    return ordered, unc, samples
 
-    # -- statistics over the whole light curve and the velocities -------------------------------
-    pr_lc.set_err_scale(1.0)
-    full = lc_fit._problem
+
+def _light_curve_statistics(lc_sol: LightCurveSolution, vbest: Mapping[str, float], jp: _JointProblem
+                            ) -> dict[str, Any]:
+    """Baseline, residuals, reduced chi-square, rms and BIC over the whole light curve at the joint values."""
+    jp.lc.set_err_scale(1.0)
+    full = lc_sol.least_squares.full
     m_full, base_full, z_full, _ = full.evaluate(vbest)
-    n_full = len(lc_fit.lc)
-    n_lc_free = len(lc_free)
+    n_full = len(lc_sol.fit.lc)
+    n_lc_free = len([n for n in jp.mapping.free if n not in VELOCITY_PARAMETERS])
     chi2_full = float(z_full @ z_full)
     redchi = chi2_full / max(1, n_full - n_lc_free - full.n_linear)
-    resid = lc_fit.lc.flux - m_full * base_full
-    rms = float(np.sqrt(np.mean(resid ** 2)))
-    bic = chi2_full + (n_lc_free + full.n_linear) * math.log(n_full)
+    resid = lc_sol.fit.lc.flux - m_full * base_full
+    return dict(baseline=base_full, residuals=resid, redchi=float(redchi), rms=float(np.sqrt(np.mean(resid ** 2))),
+                bic=float(chi2_full + (n_lc_free + full.n_linear) * math.log(n_full)))
 
-    orbit_fit = _orbit_result(rv, jp, vbest, samples, unc, free_names, double, separate_gamma, res, notes)
-    chi2_joint = float(np.sum(res.residual ** 2))
-    n_dof_joint = max(1, n_lc + jp.n_rv - len(free_names) - pr_lc.n_linear)
+
+def _verdict(lc_sol: LightCurveSolution, jp: _JointProblem, res: Any, orbit0: OrbitFit, notes: list[str]
+             ) -> tuple[bool, str, dict[str, Any]]:
+    """Success, message and the ``diagnostics["joint"]`` entries; notes on disagreements are appended."""
+    lc_fit = lc_sol.fit
+    chi2_joint = chi_square(res)
+    n_dof_joint = max(1, jp.lc.time.size + jp.n_rv - len(jp.mapping.free) - jp.lc.n_linear)
     redchi_joint = chi2_joint / n_dof_joint
     success = bool(res.success) and redchi_joint < 2.0
     message = str(res.message) if success else (
@@ -398,21 +413,13 @@ def fit_joint(
                          f"({b:.4f} ± {eb:.4f}) differ by more than 4 sigma; check the joint fit")
     if not success:
         notes.append(f"joint fit did not converge cleanly: {message}")
-    for msg in list(lc_fit.warnings) + notes:
-        warnings.warn(msg, EclipsekitWarning, stacklevel=2)
-
-    diag = dict(lc_fit.diagnostics)
-    diag.update(seconds=_time.perf_counter() - t_start, joint={
-        "light_curve_only": {n: lc_fit.uncertainties.get(n) for n in ("period", "t0", "ecosw", "esinw",
-                                                                      "radius_sum", "radius_ratio", "inclination")},
-        "light_curve_only_values": {n: lc_fit.values[n] for n in ("ecosw", "esinw")},
-        "chi2": chi2_joint, "redchi": redchi_joint, "n_velocities": jp.n_rv,
-        "flux_error_scale": scale_lc, "velocity_error_scale": dict(jp.scale)})
-    return dataclasses.replace(
-        lc_fit, values=ordered, uncertainties=unc, units=units, samples=samples, baseline=base_full,
-        residuals=resid, redchi=float(redchi), rms=rms, bic=float(bic), n_free=len(free_names),
-        free=list(free_names), lmfit_result=res, warnings=list(lc_fit.warnings) + notes, success=success,
-        message=message, diagnostics=diag, covariance=cov, orbit=orbit_fit)
+    joint = {"light_curve_only": {n: lc_fit.uncertainties.get(n) for n in ("period", "t0", "ecosw", "esinw",
+                                                                          "radius_sum", "radius_ratio",
+                                                                          "inclination")},
+             "light_curve_only_values": {n: lc_fit.values[n] for n in ("ecosw", "esinw")},
+             "chi2": chi2_joint, "redchi": redchi_joint, "n_velocities": jp.n_rv,
+             "flux_error_scale": math.sqrt(lc_sol.least_squares.redchi_fit)}
+    return success, message, joint
 
 
 def _orbit_result(rv, jp: _JointProblem, v: Mapping[str, float], samples: Mapping[str, np.ndarray],

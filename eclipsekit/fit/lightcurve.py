@@ -1,0 +1,180 @@
+"""The light-curve fit, step by step: start, parameters, least squares, uncertainties, derived, checks."""
+
+from __future__ import annotations
+
+import time as _time
+import warnings
+from dataclasses import dataclass
+from types import SimpleNamespace
+from typing import Any
+
+import numpy as np
+
+from ..data import LightCurve
+from ..errors import EclipsekitWarning
+from .checks import limb_darkening_shift, limb_darkening_warning, validity_warnings
+from .derived import add_derived_samples, add_derived_values, summarise_samples
+from .driver import LeastSquaresSolution, run_least_squares, solve
+from .initial import InitialParameters, initial_parameters
+from .parameters import DERIVED, parameter_names, unit
+from .result import EclipseFit
+from .settings import FitSettings, make_settings
+from .start import estimate_start
+from .uncertainties import METHODS, UncertaintyContext, UncertaintyEstimate, UncertaintyMethod
+
+__all__ = ["LightCurveSolution", "fit_light_curve", "start_values", "estimate_uncertainties", "derive",
+           "run_checks"]
+
+
+@dataclass(frozen=True)
+class LightCurveSolution:
+    """A light-curve fit with the pieces a further fit (e.g. the joint one) builds on.
+
+    Attributes
+    ----------
+    fit : EclipseFit
+        The result (its ``warnings`` not yet issued).
+    least_squares : LeastSquaresSolution
+        The least-squares solution: problems, best values, covariance.
+    initial : InitialParameters
+        Start values and the fitted vector.
+    settings : FitSettings
+    """
+
+    fit: EclipseFit
+    least_squares: LeastSquaresSolution
+    initial: InitialParameters
+    settings: FitSettings
+
+
+def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightCurveSolution:
+    """Fit the eclipses of ``lc`` with validated ``settings``; see :func:`~eclipsekit.fit.fit_eclipses`.
+
+    Issues no warning itself: they are in ``fit.warnings`` for the caller to issue.
+    """
+    t_start = _time.perf_counter()
+    rng = np.random.default_rng(settings.seed)
+    initial = initial_parameters(lc, start_values(lc, start, settings), settings)
+    sol = solve(lc, initial, settings)
+    estimate, runner, method = estimate_uncertainties(sol, settings, rng)
+    sol.diagnostics.update(estimate.diagnostics)
+    values, unc, samples = derive(sol, settings, estimate, runner, method, rng)
+    warn = run_checks(sol, settings, values, unc, sol.warnings + estimate.warnings)
+    fit = _result(sol, initial, settings, values, unc, samples, estimate, warn, _time.perf_counter() - t_start)
+    return LightCurveSolution(fit=fit, least_squares=sol, initial=initial, settings=settings)
+
+
+def start_values(lc: LightCurve, start: Any, settings: FitSettings) -> dict[str, Any]:
+    """:func:`estimate_start` of ``start``; without a start or ephemeris, of a period search of ``lc``."""
+    if start is None and (settings.period is None or settings.t0 is None):
+        from ..period import find_period  # loaded only when needed (astropy.timeseries)
+
+        start = find_period(lc, progress=settings.progress)
+    return estimate_start(start if start is not None else {}, period=settings.period, t0=settings.t0)
+
+
+def estimate_uncertainties(sol: LeastSquaresSolution, settings: FitSettings, rng: np.random.Generator
+                           ) -> tuple[UncertaintyEstimate, UncertaintyMethod, UncertaintyMethod]:
+    """Run the ``errors=`` plug-in; the covariance one when there is no covariance matrix to start from.
+
+    Returns the estimate, the plug-in that made it and the one requested (whose summary
+    rules apply: with no covariance the draws are all the best fit, summarised as asked).
+    """
+    method = METHODS[settings.errors]
+    runner = method if sol.covariance is not None else METHODS["covariance"]
+    pr = sol.problem
+    ctx = UncertaintyContext(
+        problem=pr, mapping=pr.mapping, best=sol.best, x_best=sol.x_best, covariance=sol.covariance,
+        redchi=sol.redchi_fit, rng=rng, settings=settings, model_full=sol.model * sol.baseline,
+        residuals_full=sol.residuals,
+        refit=lambda flux, max_nfev: run_least_squares(pr, sol.best, flux=flux, max_nfev=max_nfev)[1])
+    return runner.estimate(ctx), runner, method
+
+
+def derive(sol: LeastSquaresSolution, settings: FitSettings, estimate: UncertaintyEstimate,
+           runner: UncertaintyMethod, method: UncertaintyMethod, rng: np.random.Generator) -> tuple[dict[str, float], dict[str, float | None], dict[str, np.ndarray]]:
+    """Reported values, one-sigma uncertainties and samples of every parameter and derived quantity.
+
+    The fitted parameters are reported at the best fit, or at the draws' medians when
+    ``runner`` says so; ``method`` sets the interval and whether the derived quantities
+    are reported at their medians.
+    """
+    pm = sol.problem.mapping
+    names = parameter_names(settings.ld_law)
+    values = dict(sol.best)
+    samples = pm.samples(estimate.draws, sol.best, names)
+    if runner.point_estimate == "median":
+        for n in pm.free:
+            values[n] = float(np.median(samples[n]))
+    add_derived_samples(samples, names, pm.free, settings.ld_law, rng)
+    add_derived_values(values, names, settings.ld_law)
+    unc = summarise_samples(samples, names, pm.free, method.interval)
+    for n, s in (estimate.sigma or {}).items():
+        unc[n] = pm.sigma(n, s)
+    if method.point_estimate == "median":
+        for n in DERIVED:
+            if n in samples and np.all(np.isfinite(samples[n])):
+                values[n] = float(np.median(samples[n]))
+    # omega of a circular orbit is a convention (90 deg), not a measurement
+    if "omega" in unc and values.get("eccentricity", 0) == 0 and "ecosw" not in pm.free:
+        unc["omega"] = None
+    ordered = {n: float(values[n]) for n in names}
+    ordered.update({n: float(values[n]) for n in DERIVED})
+    return ordered, unc, samples
+
+
+def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[str, float],
+               unc: dict[str, float | None], warn: list[str]) -> list[str]:
+    """``warn`` followed by the validity warnings, a failed convergence and the limb-darkening check's."""
+    warn = list(warn)
+    warn += validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
+                              sol.durations, sol.redchi, sol.diagnostics.get("redchi_reference", 1.0))
+    if not sol.success:
+        warn.append(f"fit did not converge cleanly: {sol.message}")
+    free = sol.problem.mapping.free
+    if settings.check_limb_darkening and settings.ld_law != "uniform" and not {"ld1_1", "ld2_1"} & set(free):
+        sol.diagnostics["limb_darkening_check"] = shift = _limb_darkening_check(sol, settings, values, unc)
+        msg = limb_darkening_warning(shift, values)
+        if msg:
+            warn.append(msg)
+    return warn
+
+
+def _limb_darkening_check(sol: LeastSquaresSolution, settings: FitSettings, values: dict[str, float],
+                          unc: dict[str, float | None]) -> dict[str, float]:
+    """:func:`~eclipsekit.fit.checks.limb_darkening_shift` with a refit of this light curve from ``values``."""
+    lc = sol.lc
+
+    def refit(**kw: Any) -> EclipseFit:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", EclipsekitWarning)
+            s = make_settings(lc, ld_law=settings.ld_law, clip_sigma=None, errors="covariance", n_samples=2,
+                              progress=False, check_limb_darkening=False, exposure_time=settings.exposure_time,
+                              supersample=settings.supersample, baseline_degree=settings.baseline_degree,
+                              gap=settings.gap, window=settings.window, **kw)
+            return fit_light_curve(lc, SimpleNamespace(values=dict(values)), s).fit
+
+    return limb_darkening_shift(values, unc, sol.problem.mapping.free, float(sol.redchi), len(lc),
+                                settings.ld_law, refit)
+
+
+def _result(sol: LeastSquaresSolution, initial: InitialParameters, settings: FitSettings, values: dict[str, float],
+            unc: dict[str, float | None], samples: dict[str, np.ndarray], estimate: UncertaintyEstimate,
+            warn: list[str], seconds: float) -> EclipseFit:
+    pm, pr, full = sol.problem.mapping, sol.problem, sol.full
+    nld = len([n for n in values if n.startswith("ld1_")])
+    diag = sol.diagnostics
+    diag.update(n_points=len(sol.lc), n_fitted=int(pr.time.size), windowed=sol.windowed,
+                n_model_evaluations=int(sum(p_.nfev for p_ in sol.problems)), seconds=seconds,
+                redchi_window=sol.redchi_fit, t_ref=pm.t_ref, n_cycles=pm.n_cycles,
+                internal_bounds=initial.internal_bounds, baseline_coefficients=full.project(sol.model)[1].tolist())
+    return EclipseFit(values=values, uncertainties=unc, units={n: unit(n) for n in values}, samples=samples,
+                      lc=sol.lc, baseline=sol.baseline, residuals=sol.residuals, redchi=float(sol.redchi),
+                      rms=sol.rms, bic=float(sol.bic), n_free=len(pm.free), free=list(pm.free),
+                      errors_method=settings.errors, ld_law=settings.ld_law,
+                      ld_primary=tuple(values[f"ld1_{j + 1}"] for j in range(nld)),
+                      ld_secondary=tuple(values[f"ld2_{j + 1}"] for j in range(nld)),
+                      exposure_time=settings.exposure_time, supersample=settings.supersample,
+                      lmfit_result=estimate.lmfit_result if estimate.lmfit_result is not None else sol.result,
+                      warnings=warn, success=sol.success, message=str(sol.message), diagnostics=diag,
+                      covariance=sol.covariance, n_baseline=full.n_linear, segments=full.segments, _problem=full)

@@ -1,0 +1,276 @@
+"""The eclipse parameters: names, units, bounds, limb-darkening laws and the fitted vector.
+
+Everything that knows a parameter's name, unit or bound lives here (STYLE section 5), and
+so does :class:`ParameterMap`, the one place that turns the vector the optimisers see
+into physical values and back.
+
+The epoch is fitted as an offset from a reference epoch ``t_ref`` (the start's t0 moved
+by whole periods to the middle of the data) and the period as the timing shift it
+produces at the edge of the data, ``(P - P_ref) * n_cycles``.  Both are then O(1e-3)
+days, so finite-difference steps are meaningful (a step relative to t0 ~ 2.46e6 d would
+be ~0.04 d) and the epoch at mid-data is nearly uncorrelated with the period.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Iterable, Mapping, Sequence
+
+import lmfit
+import numpy as np
+from astropy import units as u
+
+from .._validate import as_float, as_times
+from ..errors import InputError
+
+__all__ = ["PARAMETERS", "DERIVED", "LD_LAWS", "ALIASES", "DEFAULT_FREE", "INTERNAL_NAMES", "ParameterMap",
+           "eclipse_parameters", "parameter_names", "ld_names", "ld_coefficients", "bounds", "unit",
+           "expand_names", "as_days", "is_finite"]
+
+#: name -> (unit, lower bound, upper bound, description)
+PARAMETERS: dict[str, tuple[str, float | None, float | None, str]] = {
+    "period": ("d", None, None, "orbital period"),
+    "t0": ("d", None, None, "time of mid-primary eclipse (epoch nearest the middle of the data)"),
+    "radius_sum": ("", 1e-3, 0.8, "sum of the fractional radii r1 + r2 = (R1 + R2) / a"),
+    "radius_ratio": ("", 0.02, 50.0, "ratio of the radii k = r2 / r1"),
+    "inclination": ("deg", 30.0, 90.0, "orbital inclination"),
+    "surface_brightness_ratio": ("", 1e-4, 50.0, "disc-averaged surface brightness ratio J = S2 / S1"),
+    "ecosw": ("", -0.9, 0.9, "e cos(omega)"),
+    "esinw": ("", -0.9, 0.9, "e sin(omega)"),
+    # slightly negative allowed: over-subtracted background in crowded photometry
+    "third_light": ("", -0.2, 0.95, "fraction of the out-of-eclipse flux from neither star"),
+}
+
+#: limb-darkening law -> (default coefficients, bounds of each coefficient)
+LD_LAWS: dict[str, tuple[tuple[float, ...], tuple[tuple[float, float], ...]]] = {
+    "uniform": ((), ()),
+    "linear": ((0.6,), ((0.0, 1.0),)),
+    "quadratic": ((0.4, 0.25), ((0.0, 1.0), (-0.5, 1.0))),
+    "power-2": ((0.6, 0.6), ((0.0, 1.0), (0.01, 3.0))),
+}
+
+#: derived quantities (computed from every sample) -> unit
+DERIVED: dict[str, str] = {
+    "frac_radius_primary": "",
+    "frac_radius_secondary": "",
+    "eccentricity": "",
+    "omega": "deg",
+    "light_ratio": "",
+    "depth_primary": "",
+    "depth_secondary": "",
+}
+
+#: shortcuts accepted by ``free=`` and ``fix=``
+ALIASES: dict[str, tuple[str, ...]] = {
+    "eccentricity": ("ecosw", "esinw"),
+    "e": ("ecosw", "esinw"),
+    "limb_darkening": ("ld1_1", "ld1_2", "ld2_1", "ld2_2"),
+    "ld": ("ld1_1", "ld1_2", "ld2_1", "ld2_2"),
+    "ld1": ("ld1_1", "ld1_2"),
+    "ld2": ("ld2_1", "ld2_2"),
+    "J": ("surface_brightness_ratio",),
+    "k": ("radius_ratio",),
+    "l3": ("third_light",),
+}
+
+DEFAULT_FREE = ("period", "t0", "radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio")
+
+#: physical name -> name of the fitted offset that replaces it in the vector
+INTERNAL_NAMES = {"t0": "t0_offset", "period": "period_offset"}
+
+
+def ld_names(ld_law: str) -> list[str]:
+    """Names of the limb-darkening coefficients of both stars: ld1_1, ld1_2, ld2_1, ..."""
+    n = len(LD_LAWS[ld_law][0])
+    return [f"ld{s}_{j + 1}" for s in (1, 2) for j in range(n)]
+
+
+def parameter_names(ld_law: str) -> list[str]:
+    """All eclipse-model parameters for the limb-darkening law, in reporting order."""
+    return list(PARAMETERS) + ld_names(ld_law)
+
+
+def ld_coefficients(v: Mapping[str, float], ld_law: str) -> tuple[tuple[float, ...], tuple[float, ...]]:
+    """The (primary, secondary) limb-darkening coefficients held in the values ``v``."""
+    n = len(LD_LAWS[ld_law][0])
+    return tuple(v[f"ld1_{j + 1}"] for j in range(n)), tuple(v[f"ld2_{j + 1}"] for j in range(n))
+
+
+def bounds(name: str, ld_law: str) -> tuple[float | None, float | None]:
+    """Physical (lower, upper) bound of a parameter; None where unbounded."""
+    if name in PARAMETERS:
+        return PARAMETERS[name][1], PARAMETERS[name][2]
+    j = int(name[-1]) - 1
+    return LD_LAWS[ld_law][1][j]
+
+
+def unit(name: str) -> str:
+    """Unit of a parameter or derived quantity ('' when dimensionless)."""
+    if name in PARAMETERS:
+        return PARAMETERS[name][0]
+    return DERIVED.get(name, "")
+
+
+def as_days(x: Any, name: str) -> float | None:
+    """Float days from a float, an astropy Quantity or an astropy Time (as JD); None stays None."""
+    if x is None:
+        return None
+    if hasattr(x, "jd") and not hasattr(x, "unit"):
+        return float(as_times(x, name))
+    return as_float(x, name, u.day)
+
+
+def is_finite(x: Any) -> bool:
+    """True for a finite number (anything float() accepts), False for None, NaN or text."""
+    try:
+        return x is not None and math.isfinite(float(x))
+    except (TypeError, ValueError):
+        return False
+
+
+def expand_names(names: Iterable[str] | str, ld_law: str, arg: str) -> set[str]:
+    """Parameter names from ``names`` with the shortcuts of :data:`ALIASES` expanded.
+
+    ``arg`` names the argument in the message of the InputError raised for an unknown name.
+    """
+    if isinstance(names, str):
+        names = [names]
+    valid = set(parameter_names(ld_law))
+    out: set[str] = set()
+    for n in names:
+        n = str(n)
+        if n in ALIASES:
+            out.update(x for x in ALIASES[n] if x in valid)
+        elif n in valid:
+            out.add(n)
+        else:
+            raise InputError(f"`{arg}`: unknown parameter {n!r}; valid: {', '.join(sorted(valid | set(ALIASES)))}")
+    return out
+
+
+def eclipse_parameters(start: Mapping[str, float], *, ld_law: str = "quadratic",
+                       free: Iterable[str] = DEFAULT_FREE) -> lmfit.Parameters:
+    """lmfit Parameters (public names, physical bounds) for a start dict; ``free`` ones vary."""
+    free = set(free)
+    p = lmfit.Parameters()
+    for name in parameter_names(ld_law):
+        lo, hi = bounds(name, ld_law)
+        p.add(name, value=float(start[name]), vary=name in free,
+              min=-np.inf if lo is None else lo, max=np.inf if hi is None else hi)
+    return p
+
+
+@dataclass(frozen=True)
+class ParameterMap:
+    """The fitted parameter vector and its link to physical values.
+
+    Attributes
+    ----------
+    free : list of str
+        Physical names of the fitted parameters, in vector order.
+    fixed : dict
+        Physical values of every model parameter that is not fitted.
+    t_ref, p_ref, n_cycles : float
+        Reference epoch and period of the offsets ``t0_offset = t0 - t_ref`` and
+        ``period_offset = (period - p_ref) * n_cycles``.
+    limits : list of (float, float)
+        Bounds of each fitted quantity in the fitted parameterisation.
+    """
+
+    free: list[str]
+    fixed: dict[str, float]
+    t_ref: float
+    p_ref: float
+    n_cycles: float
+    limits: list[tuple[float, float]]
+    internal: list[str] = field(init=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "internal", [INTERNAL_NAMES.get(n, n) for n in self.free])
+
+    # -- between the vector and physical values ------------------------------------
+    def physical(self, internal: Mapping[str, float]) -> dict[str, float]:
+        """Physical values of every parameter for fitted values keyed by their internal names."""
+        v = dict(self.fixed)
+        v.update(internal)
+        if "t0_offset" in v:
+            v["t0"] = self.t_ref + v.pop("t0_offset")
+        if "period_offset" in v:
+            v["period"] = self.p_ref + v.pop("period_offset") / self.n_cycles
+        return v
+
+    def internal_value(self, name: str, value: float) -> float:
+        """The fitted-parameterisation value of parameter ``name`` at physical ``value``."""
+        if name == "t0":
+            return value - self.t_ref
+        if name == "period":
+            return (value - self.p_ref) * self.n_cycles
+        return value
+
+    def vector(self, values: Mapping[str, float]) -> np.ndarray:
+        """The fitted vector at physical ``values``."""
+        return np.array([self.internal_value(n, values[n]) for n in self.free])
+
+    def samples(self, x: np.ndarray, best: Mapping[str, float], names: Sequence[str]) -> dict[str, np.ndarray]:
+        """Physical samples of ``names`` from rows of fitted vectors ``x``; the others stay at ``best``."""
+        out: dict[str, np.ndarray] = {}
+        nrow = x.shape[0]
+        for n in names:
+            if n in self.free:
+                col = x[:, self.free.index(n)]
+                if n == "t0":
+                    col = self.t_ref + col
+                elif n == "period":
+                    col = self.p_ref + col / self.n_cycles
+                out[n] = np.asarray(col, float)
+            else:
+                out[n] = np.full(nrow, best[n])
+        return out
+
+    def sigma(self, name: str, sigma_internal: float) -> float:
+        """Physical standard deviation of parameter ``name`` from that of its fitted quantity."""
+        # the period is fitted as the timing shift (P - P_ref) * n_cycles
+        return float(sigma_internal / self.n_cycles if name == "period" else sigma_internal)
+
+    # -- bounds and folding --------------------------------------------------------
+    @property
+    def lower(self) -> np.ndarray:
+        return np.array([lim[0] for lim in self.limits], float)
+
+    @property
+    def upper(self) -> np.ndarray:
+        return np.array([lim[1] for lim in self.limits], float)
+
+    def fold(self, x: np.ndarray) -> np.ndarray:
+        """Fold rows of fitted vectors (in place) to their equivalent geometry."""
+        # inclination above 90 deg is the same geometry seen from the other side
+        if "inclination" in self.free:
+            i = self.free.index("inclination")
+            x[:, i] = 90.0 - np.abs(x[:, i] - 90.0)
+        return x
+
+    def lmfit_parameters(self, values: Mapping[str, float]) -> lmfit.Parameters:
+        """lmfit Parameters (internal names, bounds) at physical ``values``, clipped into the bounds."""
+        p = lmfit.Parameters()
+        for n, ni, (lo, hi) in zip(self.free, self.internal, self.limits):
+            x = float(np.clip(self.internal_value(n, values[n]), lo, hi))
+            p.add(ni, value=x, min=lo, max=hi)
+        return p
+
+    def at_bounds(self, params: lmfit.Parameters) -> list[str]:
+        """Fitted parameters that ended at a bound (i = 90 deg, a physical limit, excepted)."""
+        out = []
+        for ni, n in zip(self.internal, self.free):
+            par = params[ni]
+            lo, hi = par.min, par.max
+            tol = 1e-6 * (hi - lo)
+            if n == "inclination" and par.value >= hi - tol:
+                continue  # i = 90 deg is a physical limit, not a failure
+            if n in ("third_light", "ecosw", "esinw") or n.startswith("ld"):
+                if abs(par.value - lo) <= tol or abs(par.value - hi) <= tol:
+                    out.append(n)
+                continue
+            if par.value - lo <= tol or hi - par.value <= tol:
+                out.append(n)
+        return out

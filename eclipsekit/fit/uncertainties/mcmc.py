@@ -1,0 +1,148 @@
+"""Uncertainties from an emcee run (affine-invariant ensemble sampler) through lmfit.
+
+Goodman & Weare 2010, Comm. App. Math. Comp. Sci. 5, 65; Foreman-Mackey et al. 2013,
+PASP 125, 306.  The log-posterior is the problem's: flat priors inside the bounds, the
+baseline marginalised (see :mod:`eclipsekit.fit.problem`), the flux errors scaled by
+sqrt(reduced chi-square) of the least-squares fit as the covariance method does.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import logging
+import math
+import time as _time
+from typing import Any
+
+import lmfit
+import numpy as np
+
+from .base import UncertaintyContext, UncertaintyEstimate
+
+__all__ = ["McmcMethod"]
+
+
+class McmcMethod:
+    """Posterior draws from emcee; values are the posterior medians, errors half the central 68% interval."""
+
+    name = "mcmc"
+    point_estimate = "median"
+    interval = "central68"
+
+    def estimate(self, context: UncertaintyContext) -> UncertaintyEstimate:
+        ctx, st = context, context.settings
+        pr = ctx.problem
+        scale = math.sqrt(ctx.redchi)
+        pr.set_err_scale(scale)
+        try:
+            pos = _start_positions(ctx)
+            params = ctx.mapping.lmfit_parameters(ctx.best)
+            mini = lmfit.Minimizer(pr.log_posterior, params, nan_policy="propagate")
+            steps = int(st.mcmc_steps)
+            # default burn-in: a tenth of the chain (the walkers start from the Laplace approximation), extended
+            # below to 3 autocorrelation times when tau turns out longer ("a few tau" of burn-in: emcee
+            # documentation, autocorrelation tutorial, from memory)
+            burn = int(st.mcmc_burn) if st.mcmc_burn is not None else steps // 10
+            t_mc = _time.perf_counter()
+            with contextlib.redirect_stdout(io.StringIO()):  # lmfit prints emcee's short-chain notice
+                mres = mini.emcee(params=params, steps=steps, nwalkers=pos.shape[0], burn=burn, thin=1,
+                                  pos=pos, float_behavior="posterior", seed=None if st.seed is None else int(st.seed),
+                                  progress=st.progress)
+            seconds = _time.perf_counter() - t_mc
+            out = _chain_summary(ctx, mini, mres, burn, pos.shape[0], scale)
+            out.diagnostics = {"mcmc_seconds": seconds, **out.diagnostics}
+        finally:
+            pr.set_err_scale(1.0)
+        return out
+
+
+def _start_positions(ctx: UncertaintyContext) -> np.ndarray:
+    """Walker starts: draws from the covariance inside the bounds (the best fit where too few are)."""
+    pm = ctx.mapping
+    lo_int, hi_int = pm.lower, pm.upper
+    nvar = len(pm.free)
+    nwalk = max(int(ctx.settings.mcmc_walkers), 2 * nvar + 2)
+    pos = np.empty((nwalk, nvar))
+    # walkers start as draws from the Laplace approximation itself (the covariance, already scaled by the
+    # reduced chi-square like the errors used here): its widths match the posterior's within ~5% on the
+    # calibration systems (scripts/calibrate_errors.py), so the ensemble starts near stationarity and
+    # the burn-in only has to absorb the non-Gaussian part.  (A ball of half the widths also spread out
+    # within ~25 steps, so it was not what limited the coverage; it only wasted burn-in.)
+    ball = ctx.covariance if ctx.covariance is not None else np.eye(nvar) * 1e-8
+    k = 0
+    for _ in range(100):
+        draw = pm.fold(ctx.rng.multivariate_normal(ctx.x_best, ball, size=nwalk, method="eigh"))
+        good = np.all((draw > lo_int) & (draw < hi_int), axis=1)
+        take = draw[good][: nwalk - k]
+        pos[k:k + take.shape[0]] = take
+        k += take.shape[0]
+        if k >= nwalk:
+            break
+    if k < nwalk:
+        pos[k:] = np.clip(ctx.x_best, lo_int + 1e-9 * (hi_int - lo_int), hi_int - 1e-9 * (hi_int - lo_int))
+    return pos
+
+
+def _autocorr(mini: lmfit.Minimizer, discard: int, nvar: int) -> np.ndarray:
+    """Integrated autocorrelation time of each parameter after ``discard`` steps."""
+    import emcee
+
+    ch = mini.sampler.get_chain(discard=discard)  # (steps - discard, walkers, nvar)
+    if ch.shape[0] < 2:
+        return np.full(nvar, np.nan)
+    emcee_log = logging.getLogger("emcee")
+    level = emcee_log.level
+    emcee_log.setLevel(logging.ERROR)  # the short-chain notice is reported by the caller, as a warning
+    try:
+        return emcee.autocorr.integrated_time(ch, quiet=True)
+    finally:
+        emcee_log.setLevel(level)
+
+
+def _chain_summary(ctx: UncertaintyContext, mini: lmfit.Minimizer, mres: Any, burn: int, nwalk: int,
+                   scale: float) -> UncertaintyEstimate:
+    """Burn-in, thinning, diagnostics and warnings of the chain; its draws."""
+    st, free = ctx.settings, ctx.mapping.free
+    nvar, steps = len(free), int(st.mcmc_steps)
+    tau = _autocorr(mini, burn, nvar)
+    if st.mcmc_burn is None and np.isfinite(np.nanmax(tau)):
+        need = min(int(math.ceil(3 * np.nanmax(tau))), steps // 2)
+        if need > burn:
+            burn = need
+            tau = _autocorr(mini, burn, nvar)
+            mres.chain = mini.sampler.get_chain(discard=burn)  # keep the lmfit result consistent
+            mres.lnprob = mini.sampler.get_log_prob(discard=burn)
+    tau_max = float(np.nanmax(tau))
+    thin = int(st.mcmc_thin) if st.mcmc_thin is not None else max(1, int(tau_max / 2)) if math.isfinite(tau_max) else 1
+    flat = mini.sampler.get_chain(discard=burn, thin=thin, flat=True)
+    n_kept = steps - burn
+    n_tau = n_kept / tau_max if tau_max > 0 else np.inf
+    # what the chain length must buy is a precise 1-sigma interval: with n_eff independent draws the half
+    # width of the 15.9-84.1% interval of a Gaussian scatters by 0.96 sigma / sqrt(n_eff) (asymptotic
+    # (co)variance of sample quantiles, p_a (1 - p_b) / (n f_a f_b); Cramer 1946, Mathematical Methods of
+    # Statistics, ch. 28, from memory; 0.96 evaluated here for p = 0.159, 0.841 of a Gaussian)
+    n_eff = nwalk * n_kept / tau_max if tau_max > 0 else np.inf
+    mc_err = 0.96 / math.sqrt(n_eff) if n_eff > 0 else np.inf
+    acc = float(np.mean(mini.sampler.acceptance_fraction))
+    diag = {"walkers": nwalk, "steps": steps, "burn": burn, "thin": thin,
+            "autocorr_time": dict(zip(free, map(float, tau))), "chain_over_tau": float(n_tau),
+            "n_effective": float(n_eff), "uncertainty_mc_error": float(mc_err),
+            # emcee's own criterion for trusting the tau estimate (integrated_time's tol=50)
+            "autocorr_reliable": bool(n_tau >= 50),
+            "acceptance_fraction": acc, "error_scale": scale}
+    warn = []
+    # warn when the quoted uncertainties carry > 5% Monte-Carlo error, or when the chain is so short (< 20
+    # tau, a judgement call) that tau itself, and with it n_eff, is likely underestimated.  (Before, any
+    # chain under 50 tau warned: the default 32 x 2000 chain, ~25 tau at tau ~ 65, warned on every run
+    # although its 1-sigma intervals have ~3% Monte-Carlo error and match the covariance errors.)
+    if mc_err > 0.05 or n_tau < 20:
+        warn.append(f"MCMC chain after burn-in is {n_tau:.0f} autocorrelation times long, ~{n_eff:.0f} "
+                    f"independent samples ({100 * mc_err:.0f}% Monte-Carlo error on the uncertainties): "
+                    f"run more steps (longest tau {tau_max:.0f} steps, {free[int(np.nanargmax(tau))]})")
+    if not 0.1 < acc < 0.8:
+        warn.append(f"MCMC acceptance fraction {acc:.2f} is outside 0.1-0.8")
+    if flat.shape[0] > st.n_samples:
+        flat = flat[ctx.rng.choice(flat.shape[0], st.n_samples, replace=False)]
+    return UncertaintyEstimate(draws=ctx.mapping.fold(flat.copy()), diagnostics={"mcmc": diag}, warnings=warn,
+                               lmfit_result=mres)
