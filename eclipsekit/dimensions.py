@@ -596,7 +596,7 @@ def absolute_dimensions(
         notes.warn("the light-curve fit has no samples: its parameters are drawn independently "
                    "(their correlations are ignored)")
 
-    # rows of one joint sample set (see eclipsekit.joint) must stay paired: one group for both fits
+    # rows of one joint sample set (see eclipsekit.fit.joint) must stay paired: one group for both fits
     draws = _draw_inputs(inputs, _same_sample_set(eclipse_fit, orbit), n_samples, rng, notes)
     out = _derive(draws, have_radii)
     values = {k: float(np.median(v)) for k, v in out.items()}

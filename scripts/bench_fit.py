@@ -1,4 +1,4 @@
-"""Benchmark of eclipsekit.fitting.fit_eclipses on a simulated 20,000-point sector.
+"""Benchmark of eclipsekit.fit.fit_eclipses on a simulated 20,000-point sector.
 
 A 27.8-day, 2-minute-cadence sector (one 1-day mid-sector gap), 1 mmag white noise,
 a slow drift, a detached eclipsing binary with a mildly eccentric orbit.  Times:

@@ -1,4 +1,4 @@
-"""Coverage study of the uncertainties of eclipsekit.fitting.fit_eclipses.
+"""Coverage study of the uncertainties of eclipsekit.fit.fit_eclipses.
 
 One synthetic system, generated without eclipsekit's model by the brute-force grid
 integration of tests/_brute_force.py, many white-noise realisations.  For each fit the

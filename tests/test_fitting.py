@@ -1,4 +1,4 @@
-"""Tests of eclipsekit.fitting.
+"""Tests of eclipsekit.fit.
 
 The main checks fit light curves made by an independent brute-force integration
 (tests/_brute_force.py: a polar grid over each disc, Kepler's equation by brentq), not

@@ -1,4 +1,4 @@
-"""Tests of the joint light-curve + radial-velocity fit (eclipsekit.joint).
+"""Tests of the joint light-curve + radial-velocity fit (eclipsekit.fit.joint).
 
 The velocities come from an independent textbook expression written here
 (v = gamma + K [cos(nu + w) + e cos w], Kepler's equation solved with
