@@ -44,7 +44,7 @@ SYSTEMS: dict[str, dict] = {
 }
 
 #: white noise per 2-minute point (relative flux)
-NOISE = {"grazing": 1e-3, "partial": 4e-4, "total": 4e-4, "eccentric": 4e-4, "power-2": 2e-4}
+NOISE = {"grazing": 1e-3, "partial": 2e-4, "total": 4e-4, "eccentric": 4e-4, "power-2": 2e-4}
 
 
 def truth(name: str) -> dict[str, float]:

@@ -81,9 +81,9 @@ class LeastSquaresSolution:
     problems: list[Problem] = field(default_factory=list)
 
 
-def chi_square(res: Any) -> float:
-    """Sum of the squared residuals of a least-squares result."""
-    return float(np.sum(res.residual ** 2))
+def chi_square(res: Any, n_data: int | None = None) -> float:
+    """Sum of the squared residuals of a least-squares result (the first ``n_data``: prior terms excluded)."""
+    return float(np.sum(res.residual[:n_data] ** 2))
 
 
 def run_least_squares(problem: Any, values: Mapping[str, float], flux: np.ndarray | None = None,
@@ -165,7 +165,7 @@ class _Driver:
         """Whether a least-squares result needs no restart, and why not."""
         bad = self.mapping.at_bounds(res.params)
         n_dof = max(1, pr.time.size - len(self.mapping.free) - pr.n_linear)
-        rc = chi_square(res) / n_dof
+        rc = chi_square(res, pr.time.size) / n_dof
         # noise-only reference: the scatter of the flanks and out-of-eclipse points
         ref = self.diag.get("redchi_reference", 1.0)
         if bad:
@@ -373,7 +373,7 @@ def solve(lc: LightCurve, initial: InitialParameters, settings: FitSettings) -> 
     resid = drv.lc.flux - m_full * base_full
     bic = chi2_full + (len(pm.free) + full.n_linear) * math.log(n_full)
     # covariance from the window fit's Jacobian, scaled by its reduced chi-square
-    redchi_fit = chi_square(res) / max(1, pr.time.size - len(pm.free) - pr.n_linear)
+    redchi_fit = chi_square(res, pr.time.size) / max(1, pr.time.size - len(pm.free) - pr.n_linear)
     cov, xbest = drv.covariance(pr, res, vbest, redchi_fit)
     success, message = drv.verdict(res, redchi_fit, why)
     return LeastSquaresSolution(

@@ -9,8 +9,9 @@ import numpy as np
 
 from ..data import LightCurve
 from ..errors import InputError
+from ..limb_darkening import TYPICAL, parameterisation
 from .parameters import (DEFAULT_FREE, INTERNAL_NAMES, LD_LAWS, PARAMETERS, ParameterMap, bounds, is_finite,
-                         parameter_names)
+                         ld_fit_names, ld_names, parameter_names)
 from .settings import FitSettings
 
 __all__ = ["InitialParameters", "initial_parameters"]
@@ -57,13 +58,16 @@ def initial_parameters(lc: LightCurve, start: Mapping[str, Any], settings: FitSe
     names = parameter_names(ld_law)
     val = {n: float(start[n]) for n in PARAMETERS}
     val.update(_ld_values(start, settings))
-    vary = set(DEFAULT_FREE)
+    combos, ld_priors = _ld_combinations(val, settings)
+    val.update(combos)
+    vary = set(DEFAULT_FREE) | set(combos)
     if start.get("eccentric"):
         vary |= {"ecosw", "esinw"}
     val.update(settings.values)
     vary = (vary - set(settings.values) - settings.fix) | settings.free
-    ld = set(n for n in names if n.startswith("ld"))
-    for n in names:
+    ld = set(n for n in val if n.startswith("ld"))
+    every = list(dict.fromkeys(names + list(combos)))
+    for n in every:
         lo, hi = bounds(n, ld_law)
         if (lo is not None and val[n] < lo) or (hi is not None and val[n] > hi):
             if n in settings.values or n in ld:
@@ -84,15 +88,44 @@ def initial_parameters(lc: LightCurve, start: Mapping[str, Any], settings: FitSe
     p_half = min(0.1 * P0, max(0.5 * w1, 10 * perr * n_cyc if is_finite(perr) else 0.0))
     internal_bounds = {"t0_offset": (-t0_half, t0_half), "period_offset": (-p_half, p_half)}
 
-    free = [n for n in names if n in vary]
+    free = [n for n in every if n in vary]
     limits = []
     for n in free:
         lo, hi = internal_bounds.get(INTERNAL_NAMES.get(n, n)) or bounds(n, ld_law)
         limits.append((-np.inf if lo is None else lo, np.inf if hi is None else hi))
+    priors = {n: p for n, p in ld_priors.items() if n in vary}
+    priors.update(settings.priors)
     mapping = ParameterMap(free=free, fixed={n: val[n] for n in names if n not in vary}, t_ref=t_ref, p_ref=P0,
-                           n_cycles=n_cyc, limits=limits)
+                           n_cycles=n_cyc, limits=limits, ld_law=ld_law, priors=priors)
     return InitialParameters(values=val, vary=frozenset(vary), mapping=mapping, durations=(w1, w2),
                              start=dict(start), internal_bounds=internal_bounds)
+
+
+def _ld_combinations(val: Mapping[str, float], settings: FitSettings
+                     ) -> tuple[dict[str, float], dict[str, tuple[float, float]]]:
+    """Fitted limb-darkening combinations (start values) and their weak priors, for the stars that get them.
+
+    By default every star's limb darkening is fitted as the decorrelated combinations of
+    :mod:`eclipsekit.limb_darkening`, each with a weak Gaussian prior centred on the
+    coefficients given (``ld_primary``/``ld_secondary``) or the law's typical ones.  A
+    star whose coefficients the user names in ``free``, ``fix`` or a fixed value keeps
+    them as the fitted quantities instead, exactly as asked (fixed unless freed).
+    """
+    law = settings.ld_law
+    pz = parameterisation(law)
+    chosen = set(settings.free) | set(settings.fix) | set(settings.values) | set(settings.priors)
+    combos: dict[str, float] = {}
+    priors: dict[str, tuple[float, float]] = {}
+    for star, given in ((1, settings.ld_primary), (2, settings.ld_secondary)):
+        own = set(ld_names(law)) & {n for n in chosen if n.startswith(f"ld{star}_")}
+        if not pz.names or own:
+            continue
+        centre = pz.to_fit(tuple(given) if given is not None else TYPICAL[law])
+        start = pz.to_fit(tuple(val[f"ld{star}_{j + 1}"] for j in range(len(TYPICAL[law]))))
+        for name, x0, mu, sd in zip(ld_fit_names(law, star), start, centre, pz.prior_sigma):
+            combos[name] = float(x0)
+            priors[name] = (float(mu), float(sd))
+    return combos, priors
 
 
 def _ld_values(start: Mapping[str, Any], settings: FitSettings) -> dict[str, float]:

@@ -95,7 +95,7 @@ class _JointProblem:
 
     def residual_from(self, internal: Mapping[str, float]) -> np.ndarray:
         v = self.mapping.physical(internal)
-        return np.concatenate([self.lc.evaluate(v)[2], *self.rv_residuals(v)])
+        return np.concatenate([self.lc.evaluate(v)[2], *self.rv_residuals(v), self.mapping.prior_residuals(v)])
 
     def residual(self, params: lmfit.Parameters) -> np.ndarray:
         try:
@@ -209,7 +209,7 @@ def fit_joint(
 
 
 def joint_fit(lc: LightCurve, velocities: Any, start: Any = None, *, fix: Iterable[str] = (),
-              free: Iterable[str] = (), errors: str = "covariance", separate_gamma: bool = False,
+              free: Iterable[str] = (), errors: str = "auto", separate_gamma: bool = False,
               n_samples: int = 4000, progress: bool = True, seed: int | None = None, **kwargs: Any) -> EclipseFit:
     """:func:`fit_joint` without issuing the warnings (they are in the result's ``warnings``)."""
     t_start = _time.perf_counter()
@@ -264,7 +264,7 @@ def _check_velocities(rv: Any, errors: str, n_samples: int, separate_gamma: bool
     """Validate the joint fit's own arguments; True when the velocities are double-lined."""
     if not all(hasattr(rv, a) for a in ("time", "rv1", "rv1_err", "rv2", "rv2_err")):
         raise InputError("`velocities` must be a VelocityCurve (see eclipsekit.read_velocities)")
-    if errors != "covariance":
+    if errors not in ("auto", "covariance"):
         raise InputError(f"the joint fit (`velocities=`) supports errors='covariance' only, got {errors!r}")
     if int(n_samples) != n_samples or n_samples < 1:
         raise InputError(f"`n_samples` must be a positive integer, got {n_samples!r}")
@@ -303,7 +303,8 @@ def _joint_problem(lc_sol: LightCurveSolution, orbit0: OrbitFit, rv: Any, fix_se
 
     free_names = lc_free + vel_names
     mapping = ParameterMap(free=free_names, fixed=lc_map.fixed, t_ref=lc_map.t_ref, p_ref=lc_map.p_ref,
-                           n_cycles=lc_map.n_cycles, limits=[bounds_of(n) for n in free_names])
+                           n_cycles=lc_map.n_cycles, limits=[bounds_of(n) for n in free_names],
+                           ld_law=lc_map.ld_law, priors=lc_map.priors)
     pr_lc = lc_sol.least_squares.problem
     # the light curve keeps its own weight: flux errors scaled as its covariance was (undone in the statistics)
     pr_lc.set_err_scale(math.sqrt(lc_sol.least_squares.redchi_fit))

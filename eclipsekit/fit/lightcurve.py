@@ -16,7 +16,7 @@ from .checks import limb_darkening_shift, limb_darkening_warning, validity_warni
 from .derived import add_derived_samples, add_derived_values, summarise_samples
 from .driver import LeastSquaresSolution, run_least_squares, solve
 from .initial import InitialParameters, initial_parameters
-from .parameters import DERIVED, parameter_names, unit
+from .parameters import DERIVED, ld_coefficients, parameter_names, unit
 from .result import EclipseFit
 from .settings import FitSettings, make_settings
 from .start import estimate_start
@@ -101,14 +101,16 @@ def derive(sol: LeastSquaresSolution, settings: FitSettings, estimate: Uncertain
     """
     pm = sol.problem.mapping
     names = parameter_names(settings.ld_law)
+    names += [n for n in pm.free if n not in names]  # fitted limb-darkening combinations
     values = dict(sol.best)
     samples = pm.samples(estimate.draws, sol.best, names)
     if runner.point_estimate == "median":
-        for n in pm.free:
-            values[n] = float(np.median(samples[n]))
+        for n in names:
+            if pm.varies(n):
+                values[n] = float(np.median(samples[n]))
     add_derived_samples(samples, names, pm.free, settings.ld_law, rng)
     add_derived_values(values, names, settings.ld_law)
-    unc = summarise_samples(samples, names, pm.free, method.interval)
+    unc = summarise_samples(samples, names, [n for n in names if pm.varies(n)], method.interval)
     for n, s in (estimate.sigma or {}).items():
         unc[n] = pm.sigma(n, s)
     if method.point_estimate == "median":
@@ -162,7 +164,6 @@ def _result(sol: LeastSquaresSolution, initial: InitialParameters, settings: Fit
             unc: dict[str, float | None], samples: dict[str, np.ndarray], estimate: UncertaintyEstimate,
             warn: list[str], seconds: float) -> EclipseFit:
     pm, pr, full = sol.problem.mapping, sol.problem, sol.full
-    nld = len([n for n in values if n.startswith("ld1_")])
     diag = sol.diagnostics
     diag.update(n_points=len(sol.lc), n_fitted=int(pr.time.size), windowed=sol.windowed,
                 n_model_evaluations=int(sum(p_.nfev for p_ in sol.problems)), seconds=seconds,
@@ -172,8 +173,8 @@ def _result(sol: LeastSquaresSolution, initial: InitialParameters, settings: Fit
                       lc=sol.lc, baseline=sol.baseline, residuals=sol.residuals, redchi=float(sol.redchi),
                       rms=sol.rms, bic=float(sol.bic), n_free=len(pm.free), free=list(pm.free),
                       errors_method=settings.errors, ld_law=settings.ld_law,
-                      ld_primary=tuple(values[f"ld1_{j + 1}"] for j in range(nld)),
-                      ld_secondary=tuple(values[f"ld2_{j + 1}"] for j in range(nld)),
+                      ld_primary=ld_coefficients(values, settings.ld_law)[0],
+                      ld_secondary=ld_coefficients(values, settings.ld_law)[1],
                       exposure_time=settings.exposure_time, supersample=settings.supersample,
                       lmfit_result=estimate.lmfit_result if estimate.lmfit_result is not None else sol.result,
                       warnings=warn, success=sol.success, message=str(sol.message), diagnostics=diag,

@@ -23,9 +23,10 @@ from astropy import units as u
 
 from .._validate import as_float, as_times
 from ..errors import InputError
+from ..limb_darkening import COEFFICIENT_BOUNDS, TYPICAL, parameterisation
 
 __all__ = ["PARAMETERS", "DERIVED", "LD_LAWS", "ALIASES", "DEFAULT_FREE", "INTERNAL_NAMES", "ParameterMap",
-           "eclipse_parameters", "parameter_names", "ld_names", "ld_coefficients", "bounds", "unit",
+           "eclipse_parameters", "parameter_names", "ld_names", "ld_fit_names", "fittable_names", "ld_coefficients", "bounds", "unit",
            "expand_names", "as_days", "is_finite"]
 
 #: name -> (unit, lower bound, upper bound, description)
@@ -42,13 +43,9 @@ PARAMETERS: dict[str, tuple[str, float | None, float | None, str]] = {
     "third_light": ("", -0.2, 0.95, "fraction of the out-of-eclipse flux from neither star"),
 }
 
-#: limb-darkening law -> (default coefficients, bounds of each coefficient)
+#: limb-darkening law -> (typical coefficients, bounds of each coefficient): one set for the model and the fit
 LD_LAWS: dict[str, tuple[tuple[float, ...], tuple[tuple[float, float], ...]]] = {
-    "uniform": ((), ()),
-    "linear": ((0.6,), ((0.0, 1.0),)),
-    "quadratic": ((0.4, 0.25), ((0.0, 1.0), (-0.5, 1.0))),
-    "power-2": ((0.6, 0.6), ((0.0, 1.0), (0.01, 3.0))),
-}
+    law: (TYPICAL[law], COEFFICIENT_BOUNDS[law]) for law in TYPICAL}
 
 #: derived quantities (computed from every sample) -> unit
 DERIVED: dict[str, str] = {
@@ -76,6 +73,8 @@ ALIASES: dict[str, tuple[str, ...]] = {
 
 DEFAULT_FREE = ("period", "t0", "radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio")
 
+_NO_PRIORS = np.zeros(0)
+
 #: physical name -> name of the fitted offset that replaces it in the vector
 INTERNAL_NAMES = {"t0": "t0_offset", "period": "period_offset"}
 
@@ -84,6 +83,21 @@ def ld_names(ld_law: str) -> list[str]:
     """Names of the limb-darkening coefficients of both stars: ld1_1, ld1_2, ld2_1, ..."""
     n = len(LD_LAWS[ld_law][0])
     return [f"ld{s}_{j + 1}" for s in (1, 2) for j in range(n)]
+
+
+def ld_fit_names(ld_law: str, star: int | None = None) -> list[str]:
+    """Names of the fitted limb-darkening combinations (see :mod:`eclipsekit.limb_darkening`).
+
+    ``ld{i}_sum``, ``ld{i}_diff`` (quadratic), ``ld{i}_h1``, ``ld{i}_h2`` (power-2),
+    ``ld{i}_1`` (linear, the coefficient itself); of one star or of both.
+    """
+    suffixes = parameterisation(ld_law).names
+    return [f"ld{s}_{x}" for s in ((1, 2) if star is None else (star,)) for x in suffixes]
+
+
+def fittable_names(ld_law: str) -> list[str]:
+    """Every name ``free``, ``fix``, ``priors`` and fixed values accept: parameters, coefficients, combinations."""
+    return parameter_names(ld_law) + [n for n in ld_fit_names(ld_law) if n not in ld_names(ld_law)]
 
 
 def parameter_names(ld_law: str) -> list[str]:
@@ -101,8 +115,11 @@ def bounds(name: str, ld_law: str) -> tuple[float | None, float | None]:
     """Physical (lower, upper) bound of a parameter; None where unbounded."""
     if name in PARAMETERS:
         return PARAMETERS[name][1], PARAMETERS[name][2]
-    j = int(name[-1]) - 1
-    return LD_LAWS[ld_law][1][j]
+    suffix = name.split("_", 1)[1]
+    pz = parameterisation(ld_law)
+    if suffix in pz.names and name not in ld_names(ld_law):
+        return pz.bounds[pz.names.index(suffix)]
+    return LD_LAWS[ld_law][1][int(suffix) - 1]
 
 
 def unit(name: str) -> str:
@@ -136,7 +153,7 @@ def expand_names(names: Iterable[str] | str, ld_law: str, arg: str) -> set[str]:
     """
     if isinstance(names, str):
         names = [names]
-    valid = set(parameter_names(ld_law))
+    valid = set(fittable_names(ld_law))
     out: set[str] = set()
     for n in names:
         n = str(n)
@@ -176,6 +193,12 @@ class ParameterMap:
         ``period_offset = (period - p_ref) * n_cycles``.
     limits : list of (float, float)
         Bounds of each fitted quantity in the fitted parameterisation.
+    ld_law : str
+        Limb-darkening law; fitted combinations of its coefficients (``ld1_sum``, ...)
+        are turned into the coefficients themselves (``ld1_1``, ...).
+    priors : dict of str -> (float, float)
+        Gaussian priors (centre, sigma) on physical values, fitted combinations or the
+        light ratio ``light_ratio`` = J k^2.
     """
 
     free: list[str]
@@ -184,10 +207,46 @@ class ParameterMap:
     p_ref: float
     n_cycles: float
     limits: list[tuple[float, float]]
+    ld_law: str = "quadratic"
+    priors: dict[str, tuple[float, float]] = field(default_factory=dict)
     internal: list[str] = field(init=False)
+    _ld_stars: tuple[int, ...] = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "internal", [INTERNAL_NAMES.get(n, n) for n in self.free])
+        # stars whose limb darkening is fitted as combinations of the coefficients
+        combos = set(ld_fit_names(self.ld_law)) - set(ld_names(self.ld_law))
+        object.__setattr__(self, "_ld_stars", tuple(s for s in (1, 2)
+                                                     if any(n in combos for n in ld_fit_names(self.ld_law, s)
+                                                            if n in self.free)))
+
+    def varies(self, name: str) -> bool:
+        """Whether parameter ``name`` varies in the fit (fitted, or a coefficient of fitted combinations)."""
+        if name in self.free:
+            return True
+        return name.startswith("ld") and name[2:3].isdigit() and int(name[2]) in self._ld_stars
+
+    def _coefficients(self, v: dict[str, Any]) -> None:
+        """Limb-darkening coefficients from fitted combinations, in place (scalars or arrays)."""
+        pz = parameterisation(self.ld_law)
+        for s in self._ld_stars:
+            combo = [v[n] for n in ld_fit_names(self.ld_law, s)]
+            if np.ndim(combo[0]):
+                coeffs = np.array([pz.from_fit(tuple(c)) for c in np.column_stack(combo)]).T
+            else:
+                coeffs = pz.from_fit(tuple(combo))
+            for j, c in enumerate(coeffs):
+                v[f"ld{s}_{j + 1}"] = c
+
+    def prior_residuals(self, v: Mapping[str, float]) -> np.ndarray:
+        """(value - centre) / sigma of every prior at physical values ``v``."""
+        if not self.priors:
+            return _NO_PRIORS
+        out = []
+        for n, (mu, sd) in self.priors.items():
+            x = v["surface_brightness_ratio"] * v["radius_ratio"] ** 2 if n == "light_ratio" else v[n]
+            out.append((x - mu) / sd)
+        return np.asarray(out, float)
 
     # -- between the vector and physical values ------------------------------------
     def physical(self, internal: Mapping[str, float]) -> dict[str, float]:
@@ -198,6 +257,23 @@ class ParameterMap:
             v["t0"] = self.t_ref + v.pop("t0_offset")
         if "period_offset" in v:
             v["period"] = self.p_ref + v.pop("period_offset") / self.n_cycles
+        if self._ld_stars:
+            self._coefficients(v)
+        return v
+
+    def physical_rows(self, x: np.ndarray) -> dict[str, np.ndarray]:
+        """Physical values of every parameter for rows of fitted vectors ``x`` (arrays of the rows' length)."""
+        n = x.shape[0]
+        v: dict[str, Any] = {k: np.full(n, val) for k, val in self.fixed.items()}
+        for j, name in enumerate(self.free):
+            col = x[:, j]
+            if name == "t0":
+                col = self.t_ref + col
+            elif name == "period":
+                col = self.p_ref + col / self.n_cycles
+            v[name] = col
+        if self._ld_stars:
+            self._coefficients(v)
         return v
 
     def internal_value(self, name: str, value: float) -> float:
@@ -224,8 +300,12 @@ class ParameterMap:
                 elif n == "period":
                     col = self.p_ref + col / self.n_cycles
                 out[n] = np.asarray(col, float)
-            else:
+            elif not self.varies(n):
                 out[n] = np.full(nrow, best[n])
+        if self._ld_stars:
+            cols = {n: x[:, self.free.index(n)] for n in self.free}
+            self._coefficients(cols)
+            out.update({n: np.asarray(cols[n], float) for n in names if n not in self.free and self.varies(n)})
         return out
 
     def sigma(self, name: str, sigma_internal: float) -> float:

@@ -28,7 +28,7 @@ import numpy as np
 
 from .. import eclipse, orbit
 from ..data import LightCurve
-from .parameters import ParameterMap, ld_coefficients
+from .parameters import LD_LAWS, ParameterMap, ld_coefficients
 
 __all__ = ["Problem", "OutOfWindowBins", "build_problem", "segment_starts", "window_mask", "BIN"]
 
@@ -188,33 +188,116 @@ class Problem:
         return m, base, (f - m * base) / self.sig, logdet
 
     def chi2(self, v: Mapping[str, float]) -> float:
-        """Chi-square at physical values ``v`` (baseline at its optimum)."""
+        """Chi-square at physical values ``v`` (baseline at its optimum), prior terms included."""
         r = self.evaluate(v)[2]
-        return float(r @ r)
+        p = self.mapping.prior_residuals(v)
+        return float(r @ r + p @ p)
 
     # -- objectives for lmfit ---------------------------------------------------------
     def residual(self, params: lmfit.Parameters, flux: np.ndarray | None = None) -> np.ndarray:
         """Normalised residuals for lmfit Parameters of the fitted vector (1e3 where the model fails)."""
+        n = self.time.size + len(self.mapping.priors)
         try:
-            r = self.evaluate(self.mapping.physical(params.valuesdict()), flux)[2]
+            r = self.residual_from(params.valuesdict(), flux)
         except (ValueError, ArithmeticError):  # invalid geometry (e.g. stars touching): push back
-            return np.full(self.time.size, 1e3)
+            return np.full(n, 1e3)
         if not np.all(np.isfinite(r)):
-            return np.full(self.time.size, 1e3)
+            return np.full(n, 1e3)
         return r
 
-    def residual_from(self, internal: Mapping[str, float]) -> np.ndarray:
-        """Normalised residuals for fitted values keyed by their internal names."""
-        return self.evaluate(self.mapping.physical(internal))[2]
+    def residual_from(self, internal: Mapping[str, float], flux: np.ndarray | None = None) -> np.ndarray:
+        """Normalised residuals, then the prior terms, for fitted values keyed by their internal names."""
+        v = self.mapping.physical(internal)
+        r = self.evaluate(v, flux)[2]
+        return np.concatenate([r, self.mapping.prior_residuals(v)]) if self.mapping.priors else r
 
     def log_posterior(self, params: lmfit.Parameters) -> float:
         """Log-posterior with the baseline marginalised (flat priors inside the bounds)."""
         try:
-            coef, logdet, chi2 = self.normal_solution(self.model(self.mapping.physical(params.valuesdict())))
+            v = self.mapping.physical(params.valuesdict())
+            coef, logdet, chi2 = self.normal_solution(self.model(v))
+            p = self.mapping.prior_residuals(v)
         except (ValueError, ArithmeticError):
             return -np.inf
-        lp = -0.5 * chi2 - 0.5 * logdet
+        lp = -0.5 * (chi2 + p @ p) - 0.5 * logdet
         return lp if math.isfinite(lp) else -np.inf
+
+
+    # -- many parameter sets at once (ensemble samplers) --------------------------------
+    def model_rows(self, v: Mapping[str, np.ndarray]) -> np.ndarray:
+        """Eclipse model for rows of physical values (arrays of length M): shape (M, points); NaN rows fail."""
+        n = len(v["period"])
+        self.nfev += n
+        law = self.ld_law
+        ld = [np.column_stack([v[f"ld{s}_{j + 1}"] for j in range(len(LD_LAWS[law][0]))]) if LD_LAWS[law][0]
+              else np.zeros((n, 0)) for s in (1, 2)]
+        kw = {k: v[k] for k in ("period", "t0", "radius_sum", "radius_ratio", "inclination",
+                                "surface_brightness_ratio", "ecosw", "esinw", "third_light")}
+        try:
+            return eclipse.model_flux_batch(self.time, **kw, ld_law=law, ld_primary=ld[0], ld_secondary=ld[1],
+                                            exposure_time=self.exposure_time, supersample=self.supersample)
+        except (ValueError, ArithmeticError):  # one set is invalid: evaluate them one by one
+            out = np.full((n, self.time.size), np.nan)
+            for i in range(n):
+                try:
+                    out[i] = self.model({k: a[i] for k, a in v.items()})
+                except (ValueError, ArithmeticError):
+                    pass
+            return out
+
+    def log_posterior_rows(self, x: np.ndarray) -> np.ndarray:
+        """Log-posterior of each row of fitted vectors ``x`` (baseline marginalised, priors, -inf outside bounds).
+
+        The vectorised form of :meth:`log_posterior` for emcee's ``vectorize=True``.
+        """
+        pm = self.mapping
+        lp = np.full(x.shape[0], -np.inf)
+        ok = np.all((x >= pm.lower) & (x <= pm.upper), axis=1)
+        if not ok.any():
+            return lp
+        v = pm.physical_rows(x[ok])
+        m = self.model_rows(v)
+        good = np.all(np.isfinite(m), axis=1)
+        chi2, logdet = self.normal_solution_rows(np.where(good[:, None], m, 1.0))
+        prior = np.zeros(good.size)
+        for name, (mu, sd) in pm.priors.items():
+            val = v["surface_brightness_ratio"] * v["radius_ratio"] ** 2 if name == "light_ratio" else v[name]
+            prior += ((val - mu) / sd) ** 2
+        out = -0.5 * (chi2 + prior) - 0.5 * logdet
+        lp[ok] = np.where(good & np.isfinite(out), out, -np.inf)
+        return lp
+
+    def normal_solution_rows(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Chi-square at the best baseline and sum of log det of the normal matrices, for each row of models ``m``.
+
+        :meth:`normal_solution` for M models at once: the corrections to the model-independent
+        sums come from the points where any row differs from 1.
+        """
+        wf, sum_w, sum_wf, sum_wff = self._sums
+        d, S, M = self.degree, self.n_seg, m.shape[0]
+        mom = np.repeat(sum_w[None], M, axis=0)
+        rhs = np.repeat(sum_wf[None], M, axis=0)
+        idx = np.flatnonzero(np.any(m != 1.0, axis=0))
+        if idx.size:
+            dm = m[:, idx] - 1.0
+            key = (np.arange(M)[:, None] * S + self.seg_index[idx][None, :]).ravel()
+            xp = self.xp[idx]
+            a = self.w[idx] * dm * (2.0 + dm)  # w (m^2 - 1)
+            b = wf[idx] * dm  # w f (m - 1)
+            for j in range(2 * d + 1):
+                mom[:, :, j] += np.bincount(key, (a * xp[:, j]).ravel(), minlength=M * S).reshape(M, S)
+            for j in range(d + 1):
+                rhs[:, :, j] += np.bincount(key, (b * xp[:, j]).ravel(), minlength=M * S).reshape(M, S)
+        G = mom[:, :, self.hankel]
+        if d == 0:
+            coef = rhs / G[..., 0]
+            logdet = np.log(G[..., 0, 0])
+        else:
+            G = G + np.eye(d + 1) * (1e-15 * G[..., :1, :1])
+            coef = np.linalg.solve(G, rhs[..., None])[..., 0]
+            logdet = np.linalg.slogdet(G)[1]
+        chi2 = sum_wff - np.sum(rhs * coef, axis=(1, 2))
+        return chi2, np.sum(logdet, axis=1)
 
 
 class OutOfWindowBins:

@@ -4,19 +4,20 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any, Iterable
+from typing import Any, Iterable, Mapping
 
 import numpy as np
 
 from ..data import LightCurve
 from ..errors import FitError, InputError
-from .parameters import LD_LAWS, as_days, expand_names, parameter_names
+from .parameters import LD_LAWS, as_days, expand_names, fittable_names
 from .uncertainties import METHODS
 
 __all__ = ["FitSettings", "make_settings", "ERROR_METHODS"]
 
-#: the ``errors=`` choices: the uncertainty plug-ins of eclipsekit.fit.uncertainties
-ERROR_METHODS = tuple(METHODS)
+#: the ``errors=`` choices: "auto" (covariance when it can be trusted, else MCMC) and the uncertainty
+#: plug-ins of eclipsekit.fit.uncertainties
+ERROR_METHODS = ("auto",) + tuple(METHODS)
 
 
 @dataclass(frozen=True)
@@ -25,10 +26,11 @@ class FitSettings:
 
     Times are in days; ``gap``, ``exposure_time`` and ``supersample`` are resolved from
     the light curve when not given.  ``free`` and ``fix`` hold expanded parameter names;
-    ``values`` the parameter values given by keyword (held fixed unless freed).
+    ``values`` the parameter values given by keyword or ``fixed`` (held fixed unless
+    freed); ``priors`` Gaussian priors (centre, sigma) by name.
     """
 
-    errors: str = "covariance"
+    errors: str = "auto"
     ld_law: str = "quadratic"
     ld_primary: tuple[float, ...] | None = None
     ld_secondary: tuple[float, ...] | None = None
@@ -43,6 +45,7 @@ class FitSettings:
     free: frozenset[str] = frozenset()
     fix: frozenset[str] = frozenset()
     values: dict[str, float] = field(default_factory=dict)
+    priors: dict[str, tuple[float, float]] = field(default_factory=dict)
     mcmc_walkers: int = 32
     mcmc_steps: int = 2000
     mcmc_burn: int | None = None
@@ -52,6 +55,8 @@ class FitSettings:
     progress: bool = True
     seed: int | None = None
     check_limb_darkening: bool = True
+    check_third_light: bool = True
+    mcmc_seconds: float | None = None
 
 
 def make_settings(
@@ -61,7 +66,7 @@ def make_settings(
     t0: Any = None,
     fix: Iterable[str] = (),
     free: Iterable[str] = (),
-    errors: str = "covariance",
+    errors: str = "auto",
     exposure_time: Any = None,
     supersample: int | None = None,
     ld_law: str = "quadratic",
@@ -80,6 +85,10 @@ def make_settings(
     progress: bool = True,
     seed: int | None = None,
     check_limb_darkening: bool = True,
+    check_third_light: bool = True,
+    fixed: Mapping[str, Any] | None = None,
+    priors: Mapping[str, Any] | None = None,
+    mcmc_seconds: float | None = None,
     **values: Any,
 ) -> FitSettings:
     """Validate the options of :func:`~eclipsekit.fit.fit_eclipses` for the light curve ``lc``.
@@ -113,12 +122,13 @@ def make_settings(
         coeffs[star] = None if given is None else tuple(float(c) for c in np.atleast_1d(given))
         if coeffs[star] is not None and len(coeffs[star]) != nld:
             raise InputError(f"`ld_{star}` needs {nld} coefficient(s) for the {ld_law} law, got {len(coeffs[star])}")
-    names = parameter_names(ld_law)
+    names = fittable_names(ld_law)
     given_values: dict[str, float] = {}
-    for n, x in values.items():
+    for n, x in {**values, **dict(fixed or {})}.items():
         if n not in names:
-            raise InputError(f"unknown parameter {n!r}; valid: {', '.join(names)}")
+            raise InputError(f"unknown parameter {n!r} to hold fixed; valid: {', '.join(names)}")
         given_values[n] = as_days(x, n) if n in ("period", "t0") else float(x)
+    prior_set = _priors(priors, names)
     free_set = expand_names(free, ld_law, "free")
     fix_set = expand_names(fix, ld_law, "fix")
     if free_set & fix_set:
@@ -127,19 +137,32 @@ def make_settings(
         errors=errors, ld_law=ld_law, ld_primary=coeffs["primary"], ld_secondary=coeffs["secondary"],
         baseline_degree=int(baseline_degree), gap=max(0.5, 10 * lc.cadence) if gap is None else float(gap),
         clip_sigma=clip_sigma, window=window, exposure_time=exp_d, supersample=supersample, period=P_in, t0=T_in,
-        free=frozenset(free_set), fix=frozenset(fix_set), values=given_values, mcmc_walkers=int(mcmc_walkers),
+        free=frozenset(free_set), fix=frozenset(fix_set), values=given_values, priors=prior_set,
+        mcmc_walkers=int(mcmc_walkers), mcmc_seconds=None if mcmc_seconds is None else float(mcmc_seconds),
+        check_third_light=check_third_light,
         mcmc_steps=int(mcmc_steps), mcmc_burn=mcmc_burn, mcmc_thin=mcmc_thin, n_samples=n_samples,
         n_shifts=n_shifts, progress=progress, seed=seed, check_limb_darkening=check_limb_darkening)
+
+
+def _priors(priors: Mapping[str, Any] | None, names: list[str]) -> dict[str, tuple[float, float]]:
+    """Validated Gaussian priors: name -> (centre, sigma), sigma finite and positive."""
+    out: dict[str, tuple[float, float]] = {}
+    for n, spec in dict(priors or {}).items():
+        if n not in names and n != "light_ratio":
+            raise InputError(f"`priors`: unknown parameter {n!r}; valid: light_ratio, {', '.join(names)}")
+        try:
+            mu, sd = (float(x) for x in spec)
+        except (TypeError, ValueError):
+            raise InputError(f"`priors[{n!r}]` must be (value, sigma), got {spec!r}") from None
+        if not (math.isfinite(mu) and math.isfinite(sd) and sd > 0):
+            raise InputError(f"`priors[{n!r}]` needs a finite value and a positive sigma, got ({mu}, {sd})")
+        out[n] = (mu, sd)
+    return out
 
 
 def _check_choices(errors: str, ld_law: str, baseline_degree: int) -> None:
     if errors not in ERROR_METHODS:
         raise InputError(f"`errors` must be one of {list(ERROR_METHODS)}, got {errors!r}")
-    if errors == "mcmc":
-        try:
-            import emcee  # noqa: F401
-        except ImportError as exc:
-            raise InputError('errors="mcmc" needs emcee: pip install "eclipsekit[mcmc]"') from exc
     if ld_law not in LD_LAWS:
         raise InputError(f"`ld_law` must be one of {list(LD_LAWS)}, got {ld_law!r}")
     if int(baseline_degree) != baseline_degree or not 0 <= baseline_degree <= 5:

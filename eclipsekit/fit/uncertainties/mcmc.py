@@ -1,21 +1,20 @@
-"""Uncertainties from an emcee run (affine-invariant ensemble sampler) through lmfit.
+"""Uncertainties from an emcee run (affine-invariant ensemble sampler).
 
 Goodman & Weare 2010, Comm. App. Math. Comp. Sci. 5, 65; Foreman-Mackey et al. 2013,
-PASP 125, 306.  The log-posterior is the problem's: flat priors inside the bounds, the
-baseline marginalised (see :mod:`eclipsekit.fit.problem`), the flux errors scaled by
-sqrt(reduced chi-square) of the least-squares fit as the covariance method does.
+PASP 125, 306.  The log-posterior is the problem's: flat inside the bounds times the
+fit's Gaussian priors, the baseline marginalised (see :mod:`eclipsekit.fit.problem`),
+the flux errors scaled by sqrt(reduced chi-square) of the least-squares fit as the
+covariance method does.  All walkers are evaluated at once (emcee's ``vectorize``):
+one batched model call per step (:func:`eclipsekit.eclipse.model_flux_batch`).
 """
 
 from __future__ import annotations
 
-import contextlib
-import io
 import logging
 import math
 import time as _time
 from typing import Any
 
-import lmfit
 import numpy as np
 
 from .base import UncertaintyContext, UncertaintyEstimate
@@ -37,24 +36,41 @@ class McmcMethod:
         pr.set_err_scale(scale)
         try:
             pos = _start_positions(ctx)
-            params = ctx.mapping.lmfit_parameters(ctx.best)
-            mini = lmfit.Minimizer(pr.log_posterior, params, nan_policy="propagate")
-            steps = int(st.mcmc_steps)
-            # default burn-in: a tenth of the chain (the walkers start from the Laplace approximation), extended
-            # below to 3 autocorrelation times when tau turns out longer ("a few tau" of burn-in: emcee
-            # documentation, autocorrelation tutorial, from memory)
-            burn = int(st.mcmc_burn) if st.mcmc_burn is not None else steps // 10
             t_mc = _time.perf_counter()
-            with contextlib.redirect_stdout(io.StringIO()):  # lmfit prints emcee's short-chain notice
-                mres = mini.emcee(params=params, steps=steps, nwalkers=pos.shape[0], burn=burn, thin=1,
-                                  pos=pos, float_behavior="posterior", seed=None if st.seed is None else int(st.seed),
-                                  progress=st.progress)
+            sampler, steps = _run(pr, pos, st)
             seconds = _time.perf_counter() - t_mc
-            out = _chain_summary(ctx, mini, mres, burn, pos.shape[0], scale)
+            out = _chain_summary(ctx, sampler, steps, pos.shape[0], scale)
             out.diagnostics = {"mcmc_seconds": seconds, **out.diagnostics}
+            if steps < int(st.mcmc_steps):
+                out.warnings.append(f"MCMC stopped after {steps} of {st.mcmc_steps} steps at its time budget of "
+                                    f"{st.mcmc_seconds:.0f} s")
         finally:
             pr.set_err_scale(1.0)
         return out
+
+
+def _run(pr: Any, pos: np.ndarray, st: Any) -> tuple[Any, int]:
+    """emcee from ``pos`` for ``mcmc_steps`` steps, or until ``mcmc_seconds`` have passed; (sampler, steps run)."""
+    import emcee
+
+    sampler = emcee.EnsembleSampler(pos.shape[0], pos.shape[1], pr.log_posterior_rows, vectorize=True)
+    if st.seed is not None:
+        sampler.random_state = np.random.RandomState(int(st.seed)).get_state()
+    t_end = None if st.mcmc_seconds is None else _time.perf_counter() + st.mcmc_seconds
+    steps = 0
+    progress = st.progress and _on_terminal()
+    for _ in sampler.sample(pos, iterations=int(st.mcmc_steps), progress=progress):
+        steps += 1
+        if t_end is not None and steps % 10 == 0 and _time.perf_counter() > t_end and steps >= 100:
+            break
+    return sampler, steps
+
+
+def _on_terminal() -> bool:
+    """Progress bars only on a terminal (not into logs)."""
+    import sys
+
+    return bool(getattr(sys.stderr, "isatty", lambda: False)())
 
 
 def _start_positions(ctx: UncertaintyContext) -> np.ndarray:
@@ -84,11 +100,11 @@ def _start_positions(ctx: UncertaintyContext) -> np.ndarray:
     return pos
 
 
-def _autocorr(mini: lmfit.Minimizer, discard: int, nvar: int) -> np.ndarray:
+def _autocorr(sampler: Any, discard: int, nvar: int) -> np.ndarray:
     """Integrated autocorrelation time of each parameter after ``discard`` steps."""
     import emcee
 
-    ch = mini.sampler.get_chain(discard=discard)  # (steps - discard, walkers, nvar)
+    ch = sampler.get_chain(discard=discard)  # (steps - discard, walkers, nvar)
     if ch.shape[0] < 2:
         return np.full(nvar, np.nan)
     emcee_log = logging.getLogger("emcee")
@@ -100,22 +116,24 @@ def _autocorr(mini: lmfit.Minimizer, discard: int, nvar: int) -> np.ndarray:
         emcee_log.setLevel(level)
 
 
-def _chain_summary(ctx: UncertaintyContext, mini: lmfit.Minimizer, mres: Any, burn: int, nwalk: int,
+def _chain_summary(ctx: UncertaintyContext, sampler: Any, steps: int, nwalk: int,
                    scale: float) -> UncertaintyEstimate:
     """Burn-in, thinning, diagnostics and warnings of the chain; its draws."""
     st, free = ctx.settings, ctx.mapping.free
-    nvar, steps = len(free), int(st.mcmc_steps)
-    tau = _autocorr(mini, burn, nvar)
+    nvar = len(free)
+    # default burn-in: a tenth of the chain (the walkers start from the Laplace approximation), extended to 3
+    # autocorrelation times when tau turns out longer ("a few tau" of burn-in: emcee documentation,
+    # autocorrelation tutorial, from memory)
+    burn = min(int(st.mcmc_burn), steps - 1) if st.mcmc_burn is not None else steps // 10
+    tau = _autocorr(sampler, burn, nvar)
     if st.mcmc_burn is None and np.isfinite(np.nanmax(tau)):
         need = min(int(math.ceil(3 * np.nanmax(tau))), steps // 2)
         if need > burn:
             burn = need
-            tau = _autocorr(mini, burn, nvar)
-            mres.chain = mini.sampler.get_chain(discard=burn)  # keep the lmfit result consistent
-            mres.lnprob = mini.sampler.get_log_prob(discard=burn)
+            tau = _autocorr(sampler, burn, nvar)
     tau_max = float(np.nanmax(tau))
     thin = int(st.mcmc_thin) if st.mcmc_thin is not None else max(1, int(tau_max / 2)) if math.isfinite(tau_max) else 1
-    flat = mini.sampler.get_chain(discard=burn, thin=thin, flat=True)
+    flat = sampler.get_chain(discard=burn, thin=thin, flat=True)
     n_kept = steps - burn
     n_tau = n_kept / tau_max if tau_max > 0 else np.inf
     # what the chain length must buy is a precise 1-sigma interval: with n_eff independent draws the half
@@ -124,7 +142,7 @@ def _chain_summary(ctx: UncertaintyContext, mini: lmfit.Minimizer, mres: Any, bu
     # Statistics, ch. 28, from memory; 0.96 evaluated here for p = 0.159, 0.841 of a Gaussian)
     n_eff = nwalk * n_kept / tau_max if tau_max > 0 else np.inf
     mc_err = 0.96 / math.sqrt(n_eff) if n_eff > 0 else np.inf
-    acc = float(np.mean(mini.sampler.acceptance_fraction))
+    acc = float(np.mean(sampler.acceptance_fraction))
     diag = {"walkers": nwalk, "steps": steps, "burn": burn, "thin": thin,
             "autocorr_time": dict(zip(free, map(float, tau))), "chain_over_tau": float(n_tau),
             "n_effective": float(n_eff), "uncertainty_mc_error": float(mc_err),
@@ -144,5 +162,4 @@ def _chain_summary(ctx: UncertaintyContext, mini: lmfit.Minimizer, mres: Any, bu
         warn.append(f"MCMC acceptance fraction {acc:.2f} is outside 0.1-0.8")
     if flat.shape[0] > st.n_samples:
         flat = flat[ctx.rng.choice(flat.shape[0], st.n_samples, replace=False)]
-    return UncertaintyEstimate(draws=ctx.mapping.fold(flat.copy()), diagnostics={"mcmc": diag}, warnings=warn,
-                               lmfit_result=mres)
+    return UncertaintyEstimate(draws=ctx.mapping.fold(flat.copy()), diagnostics={"mcmc": diag}, warnings=warn)
