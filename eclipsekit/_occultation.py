@@ -451,11 +451,21 @@ def piece_table(p: np.ndarray, a: np.ndarray, beta: np.ndarray, z_min: np.ndarra
         values = hidden_fraction_rows(z, p[rows, None], a[rows], beta[rows], n_nodes)
         c = values @ _cheb_matrix(degree).T
         done = (np.max(np.abs(c[:, -degree // 4:]), axis=1) < tol) | (degree == _PIECE_DEGREES[-1])
-        coef[:degree, rows[done], pieces[done]] = c[done].T
-        if np.any(done):
-            k_max = degree
+        c = _chop(c[done], 0.1 * tol)
+        coef[:c.shape[1], rows[done], pieces[done]] = c.T
+        k_max = max(k_max, c.shape[1])
         todo = [rows[~done & (pieces == j)] for j in (0, 1)]
     return PieceTable(p[:, None], a1[:, None], b[:, None], lo, hi, coef[:k_max], bool(np.any(inner)))
+
+
+def _chop(c: np.ndarray, threshold: float) -> np.ndarray:
+    """Rows of Chebyshev coefficients with each row's trailing terms below ``threshold`` set to 0,
+    and the columns that are then 0 in every row dropped (fewer Clenshaw steps; row by row, so a
+    row's series does not depend on the other rows)."""
+    big = np.abs(c) >= threshold
+    last = np.where(big.any(axis=1), c.shape[1] - 1 - np.argmax(big[:, ::-1], axis=1), 0)
+    c = np.where(np.arange(c.shape[1]) <= last[:, None], c, 0.0)
+    return c[:, :int(last.max(initial=0)) + 1]
 
 
 def piece_table_eval(table: PieceTable, z: np.ndarray) -> np.ndarray:

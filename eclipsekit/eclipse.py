@@ -318,7 +318,7 @@ class _Eclipses:
     Clenshaw sums and no trigonometric function.
     """
 
-    _D2_DEGREES = (16, 24, 32, 48, 64)
+    _D2_DEGREES = (12, 16, 24, 32, 48, 64)
 
     def __init__(self, sets: list, geoms: list[OrbitGeometry], ld_law: str, sigma: int):
         rows, cols = [], []
@@ -333,17 +333,20 @@ class _Eclipses:
             d_min = float(g.separation_at(np.array(xc), sigma))
             a, beta = _occ.intensity_terms(ld_law, ld)
             rows.append(i)
-            cols.append((g.t0 if sigma > 0 else g.t_secondary, g.period, window[0], window[1], weight, r_back, p,
+            # mid-eclipse as t0 + offset: times are differenced with the exact t0 first (no rounding
+            # of a large t_secondary or t_periastron enters the phase)
+            cols.append((g.t0, 0.0 if sigma > 0 else g.secondary_offset, g.period, window[0], window[1], weight, r_back, p,
                          d_min / r_back, g.e, g.omega, g.sin_i, xc) + tuple(a) + tuple(beta))
         self.rows = np.array(rows, dtype=np.intp)
         self.sigma = sigma
         if not rows:
             return
         c = np.array(cols).T
-        (self.tc, self.period, self.first, self.last, self.weight, self.r_back, p, z_min, e, omega, sin_i,
-         xc) = c[:12]
-        n_terms = (c.shape[0] - 12) // 2
-        a, beta = c[12:12 + n_terms].T, c[12 + n_terms:].T
+        (self.t0, self.offset, self.period, self.first, self.last, self.weight, self.r_back, p, z_min, e, omega,
+         sin_i, xc) = c[:13]
+        self.tc = self.t0 + self.offset
+        n_terms = (c.shape[0] - 13) // 2
+        a, beta = c[13:13 + n_terms].T, c[13 + n_terms:].T
         self.d2_coef = self._d2_series(e, omega, sin_i, xc)
         self.table = _occ.piece_table(p, a, beta, z_min)
 
@@ -367,7 +370,7 @@ class _Eclipses:
             coef = d2 @ _occ._cheb_matrix(degree).T
             # d^2 is known to ~1e-16 (a^2 units); its series is converged when the tail reaches that level
             if np.max(np.abs(coef[:, -degree // 4:])) < 1e-15 or degree == self._D2_DEGREES[-1]:
-                return coef.T[:, :, None]
+                return _occ._chop(coef, 1e-16).T[:, :, None]
         raise AssertionError("unreachable")
 
     def hidden(self, tau: np.ndarray, rows: np.ndarray | slice = slice(None)) -> np.ndarray:
@@ -399,7 +402,8 @@ class _Eclipses:
     def offsets(self, times: np.ndarray, rows: np.ndarray | slice = slice(None)) -> np.ndarray:
         """Times from the nearest mid-eclipse, shape (A, n)."""
         period = self.period[rows, None]
-        tau = times[None, :] - self.tc[rows, None]
+        tau = times[None, :] - self.t0[rows, None]
+        tau -= self.offset[rows, None]
         tau -= period * np.floor(tau / period + 0.5)
         return tau
 

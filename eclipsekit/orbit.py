@@ -169,6 +169,7 @@ class OrbitGeometry:
     x_primary: float      # offset of mid-primary from theta = 90 deg (radians)
     x_secondary: float    # offset of mid-secondary from theta = 270 deg
     t_secondary: float    # time of mid-secondary, in [t0, t0 + P)
+    secondary_offset: float = 0.0   # t_secondary - t0, without the rounding of a large t0
 
     def separation_at(self, x: np.ndarray, sigma: int) -> np.ndarray:
         """Projected separation d(x) near conjunction sigma (see class notes)."""
@@ -338,7 +339,8 @@ def orbit_geometry(period: float, t0: float, ecosw: float, esinw: float, inclina
     m_s = _mean_from_true(1.5 * np.pi + xs - omega, e)
     t_peri = t0 - period * m_p / _TWO_PI
     phase_sec = ((m_s - m_p) / _TWO_PI) % 1.0
-    return OrbitGeometry(period, t0, e, omega, cos_i, sin_i, t_peri, xp, xs, t0 + phase_sec * period)
+    return OrbitGeometry(period, t0, e, omega, cos_i, sin_i, t_peri, xp, xs, t0 + phase_sec * period,
+                         phase_sec * period)
 
 
 # ----------------------------------------------------------------------------------------------
