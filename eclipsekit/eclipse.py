@@ -583,12 +583,14 @@ def model_flux_batch(time, *, period, t0, radius_sum, radius_ratio, inclination,
     scalars = dict(period=period, t0=t0, radius_sum=radius_sum, radius_ratio=radius_ratio, inclination=inclination,
                    surface_brightness_ratio=surface_brightness_ratio, ecosw=ecosw, esinw=esinw,
                    third_light=third_light)
-    lengths = {np.shape(v)[0] for v in scalars.values() if np.ndim(v) == 1}
-    lengths |= {np.shape(v)[0] for v in (ld_primary, ld_secondary) if v is not None and np.ndim(v) == 2}
-    if len(lengths) > 1:
-        raise InputError(f"the per-set arguments have different lengths {sorted(lengths)}; give each as a scalar "
+    lengths = {k: np.shape(v)[0] for k, v in scalars.items() if np.ndim(v) == 1}
+    lengths |= {k: np.shape(v)[0] for k, v in (("ld_primary", ld_primary), ("ld_secondary", ld_secondary))
+                if v is not None and np.ndim(v) == 2}
+    if len(set(lengths.values())) > 1:
+        given = ", ".join(f"{k}: {n}" for k, n in lengths.items())
+        raise InputError(f"the per-set arguments have different lengths ({given}); give each as a scalar "
                          "or an array of the same length M")
-    n_sets = lengths.pop() if lengths else 1
+    n_sets = next(iter(lengths.values())) if lengths else 1
     columns = {k: _per_set(v, k, n_sets) for k, v in scalars.items()}
     columns["ld_primary"] = _per_set(ld_primary, "ld_primary", n_sets, coefficients=True)
     columns["ld_secondary"] = _per_set(ld_secondary, "ld_secondary", n_sets, coefficients=True)
