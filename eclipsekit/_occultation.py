@@ -177,6 +177,7 @@ def hidden_fraction_quadrature(z: np.ndarray, p: float, a: np.ndarray, beta: np.
     return out
 
 
+@lru_cache(maxsize=16)
 def _cheb_nodes(n: int) -> np.ndarray:
     """Chebyshev points of the first kind on [-1, 1] (interior: no endpoint evaluations)."""
     return np.cos(np.pi * (np.arange(n) + 0.5) / n)
@@ -437,25 +438,31 @@ def piece_table(p: np.ndarray, a: np.ndarray, beta: np.ndarray, z_min: np.ndarra
     hi[:, 1] = np.sqrt(b - a1)
     coef = np.zeros((_PIECE_DEGREES[-1], n_sets, 2))
     coef[0, :, 0] = np.where(p >= 1.0, 1.0, 0.0)              # total eclipse: the constant 1
-    todo = [np.nonzero(inner)[0], np.arange(n_sets)]
+    has_inner = bool(np.any(inner))
+    # (rows, piece) still to do; a piece's rows all take the same degree steps
+    todo = [(np.arange(n_sets), 1)] + ([(np.nonzero(inner)[0], 0)] if has_inner else [])
     k_max = 1
     for degree in _PIECE_DEGREES:
-        rows = np.concatenate(todo)
-        if rows.size == 0:
+        if not todo:
             break
-        pieces = np.concatenate([np.zeros(todo[0].size, int), np.ones(todo[1].size, int)])
         x = 0.5 * (_cheb_nodes(degree) + 1.0)
-        v = lo[rows, pieces, None] + (hi[rows, pieces] - lo[rows, pieces])[:, None] * x
-        z = np.concatenate([_z_of_piece_variable(j, v[pieces == j], a1[rows[pieces == j], None],
-                                                 b[rows[pieces == j], None]) for j in (0, 1)])
-        values = hidden_fraction_rows(z, p[rows, None], a[rows], beta[rows], n_nodes)
-        c = values @ _cheb_matrix(degree).T
-        done = (np.max(np.abs(c[:, -degree // 4:]), axis=1) < tol) | (degree == _PIECE_DEGREES[-1])
-        c = _chop(c[done], 0.1 * tol)
-        coef[:c.shape[1], rows[done], pieces[done]] = c.T
-        k_max = max(k_max, c.shape[1])
-        todo = [rows[~done & (pieces == j)] for j in (0, 1)]
-    return PieceTable(p[:, None], a1[:, None], b[:, None], lo, hi, coef[:k_max], bool(np.any(inner)))
+        last = degree == _PIECE_DEGREES[-1]
+        remaining = []
+        for rows, j in todo:
+            v = lo[rows, j, None] + (hi[rows, j] - lo[rows, j])[:, None] * x
+            z = _z_of_piece_variable(j, v, a1[rows, None], b[rows, None])
+            c = hidden_fraction_rows(z, p[rows, None], a[rows], beta[rows], n_nodes) @ _cheb_matrix(degree).T
+            done = (np.max(np.abs(c[:, -degree // 4:]), axis=1) < tol) | last
+            if np.all(done):
+                c = _chop(c, 0.1 * tol)
+                coef[:c.shape[1], rows, j] = c.T
+            else:
+                c = _chop(c[done], 0.1 * tol)
+                coef[:c.shape[1], rows[done], j] = c.T
+                remaining.append((rows[~done], j))
+            k_max = max(k_max, c.shape[1])
+        todo = remaining
+    return PieceTable(p[:, None], a1[:, None], b[:, None], lo, hi, coef[:k_max], has_inner)
 
 
 def _chop(c: np.ndarray, threshold: float) -> np.ndarray:
@@ -500,7 +507,6 @@ def piece_table_eval(table: PieceTable, z: np.ndarray) -> np.ndarray:
         b2, b1, tmp = b1, tmp, b2
     out = b1
     if t.has_inner or np.any(t.p >= 1.0):
-        total = (z <= a1) & (t.p >= 1.0)
-        out[total] = 1.0
-    out[z >= b] = 0.0
+        out = np.where((z <= a1) & (t.p >= 1.0), 1.0, out)      # total eclipse
+    out *= z < b
     return out

@@ -318,7 +318,7 @@ class _Eclipses:
     Clenshaw sums and no trigonometric function.
     """
 
-    _D2_DEGREES = (12, 16, 24, 32, 48, 64)
+    _D2_DEGREES = (16, 24, 32, 48, 64)
 
     def __init__(self, sets: list, geoms: list[OrbitGeometry], ld_law: str, sigma: int):
         rows, cols = [], []
@@ -330,7 +330,9 @@ class _Eclipses:
                 continue
             r_back, p, ld = (sy.r1, sy.k, sy.ld_primary) if sigma > 0 else (sy.r2, 1.0 / sy.k, sy.ld_secondary)
             xc = g.x_primary if sigma > 0 else g.x_secondary
-            d_min = float(g.separation_at(np.array(xc), sigma))
+            sx = math.sin(xc)
+            d_min = ((1.0 - g.e * g.e) / (1.0 - sigma * g.e * math.sin(xc - g.omega))
+                     * math.sqrt(g.cos_i * g.cos_i + g.sin_i * g.sin_i * sx * sx))      # OrbitGeometry.separation_at
             a, beta = _occ.intensity_terms(ld_law, ld)
             rows.append(i)
             # mid-eclipse as t0 + offset: times are differenced with the exact t0 first (no rounding
@@ -347,7 +349,7 @@ class _Eclipses:
         self.tc = self.t0 + self.offset
         n_terms = (c.shape[0] - 13) // 2
         a, beta = c[13:13 + n_terms].T, c[13 + n_terms:].T
-        self.d2_coef = self._d2_series(e, omega, sin_i, xc)
+        self.d2_coef = self._d2_series(e, omega, sin_i, xc) / (self.r_back * self.r_back)[:, None]   # of z^2
         self.table = _occ.piece_table(p, a, beta, z_min)
 
     def _d2_series(self, e, omega, sin_i, xc) -> np.ndarray:
@@ -390,13 +392,12 @@ class _Eclipses:
             tmp -= b2
             tmp += coef[k]
             b2, b1, tmp = b1, tmp, b2
-        z = np.sqrt(np.maximum(b1, 0.0, out=b1), out=b1)
-        z /= self.r_back[rows, None]
+        z = np.sqrt(np.maximum(b1, 0.0, out=b1), out=b1)     # d^2 series were divided by r_back^2
         table = self.table if isinstance(rows, slice) else _occ.PieceTable(
             self.table.p[rows], self.table.a1[rows], self.table.b[rows], self.table.lo[rows], self.table.hi[rows],
             self.table.coef[:, rows], self.table.has_inner)
         f = _occ.piece_table_eval(table, z)
-        f[~inside] = 0.0
+        f *= inside
         return f
 
     def offsets(self, times: np.ndarray, rows: np.ndarray | slice = slice(None)) -> np.ndarray:
