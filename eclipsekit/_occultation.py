@@ -27,6 +27,12 @@ is a function of z alone with kinks only at z = |1 - p| and z = 1 + p.  It is
 tabulated at Chebyshev nodes in a variable that smooths those kinks and
 interpolated with Clenshaw's recurrence (:class:`HiddenFractionTable`).
 
+The model's fast path (:func:`piece_table`, :func:`piece_table_eval`) does the same for
+many (p, law) at once, one row each, restricted to the separations an eclipse reaches, with
+the variables u = sqrt(z - |1 - p|) - sqrt(1 + p - z) (partial phases: both contacts in one
+series) and s = sqrt((|1 - p| - z) / |1 - p|) (occultor wholly on the disc), and the
+degree raised per row until converged.
+
 References
 ----------
 .. [1] Mandel, K. & Agol, E. 2002, ApJ, 580, L171 (occultation geometry, small-planet limit)

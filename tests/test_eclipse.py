@@ -357,7 +357,8 @@ def _batch_sets(law):
           "power-2": [(0.6, 0.55), (0.7, 0.6), (0.5, 0.7), (0.65, 0.45)]}[law]
     return dict(period=np.array([2.7, 3.1, 4.2, 1.9]), t0=np.array([0.4, 1.3, -2.0, 2460101.3217]),
                 radius_sum=np.array([0.2, 0.15, 0.25, 0.185]), radius_ratio=np.array([0.3, 3.0, 1.0, 0.78]),
-                inclination=np.array([89.5, 88.0, 86.5, 88.1]), surface_brightness_ratio=np.array([0.6, 0.9, 0.5, 0.62]),
+                inclination=np.array([89.5, 88.0, 86.5, 88.1]),
+                surface_brightness_ratio=np.array([0.6, 0.9, 0.5, 0.62]),
                 ecosw=np.array([0.0, 0.15, 0.05, 0.012]), esinw=np.array([0.0, -0.1, 0.08, -0.035]),
                 third_light=np.array([0.0, 0.1, 0.0, 0.0]), ld_law=law, ld_primary=ld, ld_secondary=ld[::-1])
 
@@ -494,3 +495,15 @@ def test_limb_darkening_positivity_is_exact(coeffs, ok):
     else:
         with pytest.raises(GeometryError, match="negative intensity"):
             model_flux([0.4], **kw)
+
+
+def test_batch_with_exposure_smearing_equals_single_calls():
+    # consistency (no outside source): the smeared batch is the smeared single calls, set by set
+    from eclipsekit.eclipse import model_flux_batch
+    base = _batch_sets("quadratic")
+    t = np.sort(np.concatenate([_eclipse_times(_one_set(base, i), n=30) for i in range(4)]))
+    kw = dict(base, exposure_time=0.02, supersample=5)
+    batch = model_flux_batch(t, **kw)
+    single = np.array([model_flux(t, **_one_set(kw, i)) for i in range(4)])
+    assert np.max(np.abs(batch - single)) < 1e-12
+    assert np.max(np.abs(batch - model_flux_batch(t, **dict(kw, supersample=1)))) > 1e-5   # smearing is real
