@@ -27,6 +27,12 @@ is a function of z alone with kinks only at z = |1 - p| and z = 1 + p.  It is
 tabulated at Chebyshev nodes in a variable that smooths those kinks and
 interpolated with Clenshaw's recurrence (:class:`HiddenFractionTable`).
 
+The model's fast path (:func:`piece_table`, :func:`piece_table_eval`) does the same for
+many (p, law) at once, one row each, restricted to the separations an eclipse reaches, with
+the variables u = sqrt(z - |1 - p|) - sqrt(1 + p - z) (partial phases: both contacts in one
+series) and s = sqrt((|1 - p| - z) / |1 - p|) (occultor wholly on the disc), and the
+degree raised per row until converged.
+
 References
 ----------
 .. [1] Mandel, K. & Agol, E. 2002, ApJ, 580, L171 (occultation geometry, small-planet limit)
@@ -39,11 +45,13 @@ from __future__ import annotations
 import threading
 from collections import OrderedDict
 from functools import lru_cache
+from typing import NamedTuple
 
 import numpy as np
 
 __all__ = ["intensity_terms", "disc_flux", "lens_area", "hidden_fraction_quadrature", "HiddenFractionTable",
-           "hidden_fraction_table", "hidden_fraction"]
+           "hidden_fraction_table", "hidden_fraction", "lens_area_rows", "hidden_fraction_rows", "PieceTable",
+           "piece_table", "piece_table_eval"]
 
 _HALF_PI = 0.5 * np.pi
 
@@ -175,6 +183,7 @@ def hidden_fraction_quadrature(z: np.ndarray, p: float, a: np.ndarray, beta: np.
     return out
 
 
+@lru_cache(maxsize=16)
 def _cheb_nodes(n: int) -> np.ndarray:
     """Chebyshev points of the first kind on [-1, 1] (interior: no endpoint evaluations)."""
     return np.cos(np.pi * (np.arange(n) + 0.5) / n)
@@ -304,3 +313,206 @@ def hidden_fraction(z: np.ndarray, p: float, ld_law: str, coeffs: tuple[float, .
         a, beta = intensity_terms(ld_law, coeffs)
         return hidden_fraction_quadrature(z, p, a, beta)
     return hidden_fraction_table(p, ld_law, coeffs)(z)
+
+
+# ----------------------------------------------------------------------------------------------
+# many occultations at once (one p and law per row): the model's fast path
+# ----------------------------------------------------------------------------------------------
+def lens_area_rows(z: np.ndarray, p: np.ndarray) -> np.ndarray:
+    """:func:`lens_area` with ``p`` broadcasting against ``z`` (same formulas, no masks)."""
+    dp = p - 1.0
+    zm = z - dp
+    zq = z + dp
+    outer = (1.0 + p) - z
+    k0 = 2.0 * np.arctan2(np.sqrt(np.maximum(zm * outer, 0.0)), np.sqrt(np.maximum(zq * (p + z + 1.0), 0.0)))
+    k1 = 2.0 * np.arctan2(np.sqrt(np.maximum(zq * outer, 0.0)), np.sqrt(np.maximum(zm * (1.0 + z + p), 0.0)))
+    q = (z + 1.0 + p) * zm * zq * outer
+    area = p * p * k0 + k1 - 0.5 * np.sqrt(np.maximum(q, 0.0))
+    area = np.where(z <= np.abs(dp), np.pi * np.minimum(p, 1.0) ** 2, area)
+    return np.where(z < 1.0 + p, area, 0.0)
+
+
+def hidden_fraction_rows(z: np.ndarray, p: np.ndarray, a: np.ndarray, beta: np.ndarray,
+                         n_nodes: int = 32) -> np.ndarray:
+    """:func:`hidden_fraction_quadrature` for R occultations at once, one ``p`` and law per row.
+
+    Parameters
+    ----------
+    z : ndarray, shape (R, n)
+        Centre separations (> 0) in units of each row's back-star radius.
+    p : ndarray, shape (R, 1)
+        Occultor radius over back-star radius, per row.
+    a, beta : ndarray, shape (R, J)
+        Intensity laws (:func:`intensity_terms`) per row; the powers of a column must be all
+        1, all 2 (fast paths) or anything positive.
+    """
+    out = a[:, :1] * lens_area_rows(z, p)
+    norm = a[:, 0] * np.pi
+    big_r = np.clip(p - z, 0.0, 1.0)
+    mu_r2 = 1.0 - big_r * big_r
+    s, one_minus_s, ds = _gauss_legendre_mapped(n_nodes)
+    s, one_minus_s, ds = s[:, None], one_minus_s[:, None], ds[:, None]
+    # the partial-arc range [|z - p|, min(z + p, 1)] as in hidden_fraction_quadrature (empty -> width 0);
+    # nodes on the first axis, all separations on the second: long inner loops for NumPy
+    zp = z.ravel()
+    pp = np.broadcast_to(p, z.shape).ravel()
+    dz = zp - pp
+    lop = np.abs(dz)
+    hip = np.minimum(zp + pp, 1.0)
+    width = np.maximum(hip - lop, 0.0)
+    ws = width * s
+    r = lop + ws
+    one_minus = ((zp + pp - hip) + width * one_minus_s) * ((lop - dz) + ws)
+    one_plus = ((lop + dz) + ws) * (r + (zp + pp))
+    np.maximum(one_minus, 0.0, out=one_minus)
+    np.maximum(one_plus, 0.0, out=one_plus)
+    kappa = np.arctan2(np.sqrt(one_minus, out=one_minus), np.sqrt(one_plus, out=one_plus), out=one_minus)
+    mu2 = r * r
+    np.subtract(1.0, mu2, out=mu2)
+    np.maximum(mu2, 0.0, out=mu2)
+    base = r * kappa
+    base *= 4.0 * ds
+    base *= width
+    for j in range(1, a.shape[1]):
+        aj = a[:, j:j + 1]
+        bj = beta[:, j:j + 1]
+        if np.all(bj == 1.0):
+            weight = np.sqrt(mu2)
+        elif np.all(bj == 2.0):
+            weight = mu2
+        else:
+            weight = mu2 ** np.broadcast_to(0.5 * bj, z.shape).ravel()
+        term = 2.0 * np.pi * (1.0 - mu_r2 ** (0.5 * bj + 1.0)) / (bj + 2.0)
+        out += aj * (term + np.einsum("ij,ij->j", base, weight).reshape(z.shape))
+        norm = norm + a[:, j] * 2.0 * np.pi / (beta[:, j] + 2.0)
+    return out / norm[:, None]
+
+
+class PieceTable(NamedTuple):
+    """Hidden fraction of M occultations as Chebyshev series in variables that smooth the contacts.
+
+    Two pieces per row (a1 = |1 - p|, b = 1 + p, W = b - a1):
+
+    0. z < a1, only where p < 1 and the separations reach below a1 (occultor wholly on the
+       disc): series in s = sqrt((a1 - z) / a1), on [0, s(z_min)];
+    1. a1 <= z < b (partial): series in u = sqrt(z - a1) - sqrt(b - z), on [u(max(a1, z_min)), sqrt(W)];
+       z(u) = a1 + A^2 with A = (u + sqrt(2 W - u^2)) / 2 is analytic on that range.
+
+    The hidden fraction behaves like (distance to a contact)^(3/2) at z = a1 and z = b, i.e.
+    like s^3 or (u - u_contact)^3 here: the series converge geometrically.  For p >= 1,
+    z <= a1 is the total eclipse, fraction 1.
+    """
+
+    p: np.ndarray           # (M, 1)
+    a1: np.ndarray          # (M, 1)
+    b: np.ndarray           # (M, 1)
+    lo: np.ndarray          # (M, 2): each piece's interval [lo, hi] in its variable
+    hi: np.ndarray
+    coef: np.ndarray        # (K, M, 2) Chebyshev coefficients, zero-padded to the longest series
+    has_inner: bool         # any row with piece 0
+
+
+_PIECE_DEGREES = (32, 48, 64, 96, 128)
+
+
+def _z_of_piece_variable(piece: int, v: np.ndarray, a1: np.ndarray, b: np.ndarray) -> np.ndarray:
+    if piece == 0:
+        return a1 * (1.0 - v * v)
+    half = 0.5 * (v + np.sqrt(np.maximum(2.0 * (b - a1) - v * v, 0.0)))
+    return np.minimum(a1 + half * half, b)
+
+
+def piece_table(p: np.ndarray, a: np.ndarray, beta: np.ndarray, z_min: np.ndarray, tol: float = 2e-11,
+                n_nodes: int = 32) -> PieceTable:
+    """Build the :class:`PieceTable` of M occultations (p, z_min of shape (M,); a, beta of shape (M, J)).
+
+    ``z_min`` is the least separation that will be asked for (mid-eclipse).  Each piece is
+    interpolated at Chebyshev points of the first kind (values from :func:`hidden_fraction_rows`);
+    its degree is raised through 32, 48, 64, 96, 128 until the last quarter of its
+    coefficients is below ``tol`` (they decay like the interpolation error [2]_).  A row's
+    series depend on that row alone, so a row gives the same numbers whatever the other rows are.
+    """
+    n_sets = p.shape[0]
+    a1 = np.abs(1.0 - p)
+    b = 1.0 + p
+    zlo = np.maximum(a1, z_min)
+    inner = (p < 1.0) & (z_min < a1)
+    lo = np.zeros((n_sets, 2))
+    hi = np.zeros((n_sets, 2))
+    hi[:, 0] = np.where(inner, np.sqrt(np.maximum(a1 - z_min, 0.0) / np.where(a1 > 0.0, a1, 1.0)), 0.0)
+    lo[:, 1] = np.sqrt(zlo - a1) - np.sqrt(b - zlo)
+    hi[:, 1] = np.sqrt(b - a1)
+    coef = np.zeros((_PIECE_DEGREES[-1], n_sets, 2))
+    coef[0, :, 0] = np.where(p >= 1.0, 1.0, 0.0)              # total eclipse: the constant 1
+    has_inner = bool(np.any(inner))
+    # (rows, piece) still to do; a piece's rows all take the same degree steps
+    todo = [(np.arange(n_sets), 1)] + ([(np.nonzero(inner)[0], 0)] if has_inner else [])
+    k_max = 1
+    for degree in _PIECE_DEGREES:
+        if not todo:
+            break
+        x = 0.5 * (_cheb_nodes(degree) + 1.0)
+        last = degree == _PIECE_DEGREES[-1]
+        remaining = []
+        for rows, j in todo:
+            v = lo[rows, j, None] + (hi[rows, j] - lo[rows, j])[:, None] * x
+            z = _z_of_piece_variable(j, v, a1[rows, None], b[rows, None])
+            c = hidden_fraction_rows(z, p[rows, None], a[rows], beta[rows], n_nodes) @ _cheb_matrix(degree).T
+            done = (np.max(np.abs(c[:, -degree // 4:]), axis=1) < tol) | last
+            if np.all(done):
+                c = _chop(c, 0.1 * tol)
+                coef[:c.shape[1], rows, j] = c.T
+            else:
+                c = _chop(c[done], 0.1 * tol)
+                coef[:c.shape[1], rows[done], j] = c.T
+                remaining.append((rows[~done], j))
+            k_max = max(k_max, c.shape[1])
+        todo = remaining
+    return PieceTable(p[:, None], a1[:, None], b[:, None], lo, hi, coef[:k_max], has_inner)
+
+
+def _chop(c: np.ndarray, threshold: float) -> np.ndarray:
+    """Rows of Chebyshev coefficients with each row's trailing terms below ``threshold`` set to 0,
+    and the columns that are then 0 in every row dropped (fewer Clenshaw steps; row by row, so a
+    row's series does not depend on the other rows)."""
+    big = np.abs(c) >= threshold
+    last = np.where(big.any(axis=1), c.shape[1] - 1 - np.argmax(big[:, ::-1], axis=1), 0)
+    c = np.where(np.arange(c.shape[1]) <= last[:, None], c, 0.0)
+    return c[:, :int(last.max(initial=0)) + 1]
+
+
+def piece_table_eval(table: PieceTable, z: np.ndarray) -> np.ndarray:
+    """Hidden fraction at separations ``z`` of shape (M, n), row i from occultation i; 0 for z >= b."""
+    t = table
+    a1, b = t.a1, t.b
+    # the partial piece's variable for every point (clipped: points beyond a contact are overwritten)
+    u = np.sqrt(np.maximum(z - a1, 0.0))
+    u -= np.sqrt(np.maximum(b - z, 0.0))
+    lo1, hi1 = t.lo[:, 1:], t.hi[:, 1:]
+    u -= 0.5 * (lo1 + hi1)
+    u *= 2.0 / np.where(hi1 > lo1, hi1 - lo1, 1.0)
+    coef = t.coef
+    if t.has_inner:
+        in0 = z < a1
+        lo0, hi0 = t.lo[:, :1], t.hi[:, :1]
+        s = np.sqrt(np.maximum(a1 - z, 0.0) / np.where(a1 > 0.0, a1, 1.0))
+        s = (2.0 * s - (lo0 + hi0)) / np.where(hi0 > lo0, hi0 - lo0, 1.0)
+        u = np.where(in0, s, u)
+    x = np.clip(u, -1.0, 1.0, out=u)
+    # Clenshaw's recurrence, each point with its row's (and piece's) coefficients
+    x2 = 2.0 * x
+    b1 = np.zeros_like(x)
+    b2 = np.zeros_like(x)
+    tmp = np.empty_like(x)
+    for k in range(coef.shape[0] - 1, -1, -1):
+        if k == 0:
+            x2 = x
+        np.multiply(x2, b1, out=tmp)
+        tmp -= b2
+        tmp += np.where(in0, coef[k, :, :1], coef[k, :, 1:]) if t.has_inner else coef[k, :, 1:]
+        b2, b1, tmp = b1, tmp, b2
+    out = b1
+    if t.has_inner or np.any(t.p >= 1.0):
+        out = np.where((z <= a1) & (t.p >= 1.0), 1.0, out)      # total eclipse
+    out *= z < b
+    return out

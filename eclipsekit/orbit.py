@@ -79,7 +79,7 @@ def _inclination(inclination) -> float:
 # ----------------------------------------------------------------------------------------------
 # Kepler's equation
 # ----------------------------------------------------------------------------------------------
-def _kepler_kernel(mean_anomaly: np.ndarray, e: float, start: np.ndarray | None = None,
+def _kepler_kernel(mean_anomaly: np.ndarray, e: float | np.ndarray, start: np.ndarray | None = None,
                    tol: float = 1e-6, max_iter: int = 60) -> np.ndarray:
     """Halley iterations on E - e sin E = M (M already reduced to [-pi, pi]).
 
@@ -88,7 +88,7 @@ def _kepler_kernel(mean_anomaly: np.ndarray, e: float, start: np.ndarray | None 
     e <= 0.95, i.e. < 1e-16 for tol = 1e-6 (one trigonometric pass saved per solve).
     """
     m = mean_anomaly
-    if e == 0.0:
+    if np.all(np.asarray(e) == 0.0):        # ``e`` may be an array broadcasting against M (one per orbit)
         return m.copy()
     ecc = start.copy() if start is not None else m + 0.85 * e * np.sign(np.sin(m))  # Danby (1988)
     for _ in range(max_iter):
@@ -169,6 +169,7 @@ class OrbitGeometry:
     x_primary: float      # offset of mid-primary from theta = 90 deg (radians)
     x_secondary: float    # offset of mid-secondary from theta = 270 deg
     t_secondary: float    # time of mid-secondary, in [t0, t0 + P)
+    secondary_offset: float = 0.0   # t_secondary - t0, without the rounding of a large t0
 
     def separation_at(self, x: np.ndarray, sigma: int) -> np.ndarray:
         """Projected separation d(x) near conjunction sigma (see class notes)."""
@@ -190,6 +191,17 @@ class OrbitGeometry:
         xc = self.x_primary if sigma > 0 else self.x_secondary
         if self.separation_at(np.array(xc), sigma) >= radius_sum:
             return None
+        roots = [_contact_newton(self.e, self.omega, self.cos_i, self.sin_i, sigma, xc, radius_sum, side)
+                 for side in (-1.0, 1.0)]
+        if None not in roots:
+            tc = self.time_at(xc, sigma)
+            return tuple((self.time_at(x, sigma) - tc + 0.5 * self.period) % self.period - 0.5 * self.period
+                         for x in roots)
+        return self._contacts_bracketed(radius_sum, sigma)
+
+    def _contacts_bracketed(self, radius_sum: float, sigma: int) -> tuple[float, float]:
+        """:meth:`contacts` by a grid search and Brent's method (robust; slower)."""
+        xc = self.x_primary if sigma > 0 else self.x_secondary
         if self.e == 0.0:
             # circular: sin^2 x = (R^2 - cos^2 i) / sin^2 i, time linear in x
             x = math.asin(min(1.0, math.sqrt(radius_sum ** 2 - self.cos_i ** 2) / self.sin_i))
@@ -219,14 +231,75 @@ class OrbitGeometry:
         return t_first, t_last
 
 
+def _contact_newton(e: float, omega: float, cos_i: float, sin_i: float, sigma: int, xc: float, radius: float,
+                    side: float) -> float | None:
+    """Angle x of the crossing d(x) = radius on one side of mid-eclipse ``xc``, by Newton's method.
+
+    Newton on phi(x) = ln d^2(x) - ln radius^2 from the circular-orbit crossing (exact for e = 0),
+    one step past |step| < 1e-13 rad (quadratic convergence).  None if it fails to converge on
+    the requested side of mid-eclipse within |x| < 90 deg (the caller then brackets).
+    """
+    c2 = cos_i * cos_i
+    s2 = sin_i * sin_i
+    one_e2 = 1.0 - e * e
+    rc = one_e2 / (1.0 - sigma * e * math.sin(xc - omega))
+    arg = ((radius / rc) ** 2 - c2) / s2 if s2 > 0.0 else 1.0
+    x = xc + side * math.asin(math.sqrt(min(max(arg, 0.0), 1.0)))
+    log_r2 = 2.0 * math.log(radius)
+    last_pass = False
+    for _ in range(40):
+        if not -0.5 * math.pi < x < 0.5 * math.pi:
+            return None
+        sx = math.sin(x)
+        q = c2 + s2 * sx * sx
+        den = 1.0 - sigma * e * math.sin(x - omega)
+        dphi = 2.0 * sigma * e * math.cos(x - omega) / den + 2.0 * s2 * sx * math.cos(x) / q
+        if q <= 0.0 or dphi * side <= 0.0:      # d must grow away from mid-eclipse
+            return None
+        step = (2.0 * math.log(one_e2 / den) + math.log(q) - log_r2) / dphi
+        x -= step
+        if last_pass:
+            return x if side * (x - xc) > 0.0 else None
+        last_pass = abs(step) < 1e-13
+    return None
+
+
 def _mid_eclipse_offset(e: float, omega: float, cos_i: float, sin_i: float, sigma: int) -> float:
     """Angle x (from theta = 90 or 270 deg) of the minimum projected separation.
 
     Zero of H(x) = 2 e sigma cos(x - w) (c^2 + s^2 sin^2 x) + s^2 sin(2x) (1 - sigma e sin(x - w)),
     the derivative of ln d^2 times its (positive) denominators; H < 0 -> H > 0 is a minimum.
+    Newton's method from x = 0 (quadratic convergence, one step past |step| < 1e-13); where it
+    fails (H' <= 0, |x| >= 0.5 rad) or below 60 deg inclination, where d may have several minima,
+    the stationary points are bracketed on a grid instead.
     """
     if e == 0.0 or cos_i == 0.0:
         return 0.0
+    if cos_i < 0.5:
+        c2 = cos_i * cos_i
+        s2 = sin_i * sin_i
+        x = 0.0
+        last_pass = False
+        for _ in range(30):
+            sx, cx = math.sin(x), math.cos(x)
+            sw, cw = math.sin(x - omega), math.cos(x - omega)
+            q = c2 + s2 * sx * sx
+            s2x = 2.0 * sx * cx
+            h = 2.0 * e * sigma * cw * q + s2 * s2x * (1.0 - sigma * e * sw)
+            hp = (-2.0 * e * sigma * sw * q + e * sigma * s2 * s2x * cw
+                  + 2.0 * s2 * (cx * cx - sx * sx) * (1.0 - sigma * e * sw))
+            if not hp > 0.0 or abs(x) >= 0.5:
+                break
+            step = h / hp
+            x -= step
+            if last_pass:
+                return x
+            last_pass = abs(step) < 1e-13
+    return _mid_eclipse_offset_bracketed(e, omega, cos_i, sin_i, sigma)
+
+
+def _mid_eclipse_offset_bracketed(e: float, omega: float, cos_i: float, sin_i: float, sigma: int) -> float:
+    """:func:`_mid_eclipse_offset` by bracketing every stationary point on a grid (Brent's method)."""
     c2 = cos_i * cos_i
     s2 = sin_i * sin_i
 
@@ -266,7 +339,8 @@ def orbit_geometry(period: float, t0: float, ecosw: float, esinw: float, inclina
     m_s = _mean_from_true(1.5 * np.pi + xs - omega, e)
     t_peri = t0 - period * m_p / _TWO_PI
     phase_sec = ((m_s - m_p) / _TWO_PI) % 1.0
-    return OrbitGeometry(period, t0, e, omega, cos_i, sin_i, t_peri, xp, xs, t0 + phase_sec * period)
+    return OrbitGeometry(period, t0, e, omega, cos_i, sin_i, t_peri, xp, xs, t0 + phase_sec * period,
+                         phase_sec * period)
 
 
 # ----------------------------------------------------------------------------------------------

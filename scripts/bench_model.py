@@ -15,14 +15,28 @@ The accuracy of model_flux is measured against a precise slow path on all points
 eclipse: direct kink-aware quadrature (error < 1e-12) at the separations of an
 independent full-orbit solve, and for smearing a 401-point midpoint average.
 
-Usage: python scripts/bench_model.py [--repeats N]
+A fourth case is an MCMC's view: "parameters changing every call" on scripts/bench_fit.py's
+sector (20,000 two-minute points, e = 0.037) restricted to the points within 1.5 eclipse
+durations of each eclipse (~7,000 points, as the fit does), with radius ratio, radius sum,
+inclination and limb darkening drawn from a narrow posterior-like cloud (fixed seed).  It is
+timed per parameter set for model_flux, for model_flux_batch with 32 sets per call (an
+ensemble sampler's walkers), and for the previous implementation (the package's
+orbit/eclipse/occultation modules at git revision ``--previous``, loaded under another
+name) in the same run.
+
+Usage: python scripts/bench_model.py [--repeats N] [--previous REV] [--only-changing]
 """
 
 from __future__ import annotations
 
 import argparse
+import importlib
 import os
+import subprocess
+import sys
+import tempfile
 import time
+from pathlib import Path
 
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
@@ -30,7 +44,7 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 
 from eclipsekit import _occultation as occ  # noqa: E402
-from eclipsekit.eclipse import model_flux  # noqa: E402
+from eclipsekit.eclipse import eclipse_properties, model_flux, model_flux_batch  # noqa: E402
 from eclipsekit.orbit import sky_separation, solve_kepler  # noqa: E402
 
 N = 100_000
@@ -135,12 +149,108 @@ def timed(fn, repeats):
     return float(np.median(out))
 
 
+# ----------------------------------------------------------------------------------------------
+# parameters changing every call (an MCMC) on bench_fit's windowed sector; previous implementation
+# ----------------------------------------------------------------------------------------------
+#: the last revision before the batched model (override with --previous)
+PREVIOUS = "1177892"
+FIT_TRUTH = dict(period=3.4713, t0=2460101.3217, radius_sum=0.185, radius_ratio=0.78, inclination=88.1,
+                 surface_brightness_ratio=0.62, ecosw=0.012, esinw=-0.035, third_light=0.0,
+                 ld_primary=(0.40, 0.25), ld_secondary=(0.45, 0.22))
+WALKERS = 32
+
+
+def previous_model_flux(rev: str):
+    """model_flux of revision ``rev``: its numerical modules written to a temporary package and imported."""
+    root = Path(__file__).resolve().parents[1]
+    pkg = Path(tempfile.mkdtemp(prefix="eclipsekit_previous_")) / "eclipsekit_previous"
+    pkg.mkdir()
+    (pkg / "__init__.py").write_text("")
+    for name in ("eclipse", "_occultation", "orbit", "errors", "_validate"):
+        text = subprocess.run(["git", "-C", str(root), "show", f"{rev}:eclipsekit/{name}.py"], check=True,
+                              capture_output=True, text=True).stdout
+        (pkg / f"{name}.py").write_text(text)
+    sys.path.insert(0, str(pkg.parent))
+    return importlib.import_module("eclipsekit_previous.eclipse").model_flux
+
+
+def windowed_sector_times() -> np.ndarray:
+    """bench_fit.py's sector times within 1.5 eclipse durations of each eclipse."""
+    t = 2460100.0 + np.arange(20000 + 720) * (2.0 / 1440)
+    t = np.concatenate([t[:10000], t[10720:]])
+    props = eclipse_properties(**{k: v for k, v in FIT_TRUTH.items() if k != "t0"})
+    period, t0 = FIT_TRUTH["period"], FIT_TRUTH["t0"]
+    keep = np.zeros(t.size, bool)
+    for tc, dur in ((t0, props["duration_primary"]), (t0 + props["phase_secondary"] * period,
+                                                        props["duration_secondary"])):
+        x = (t - tc) / period
+        x -= np.floor(x + 0.5)
+        keep |= np.abs(x * period) < 1.5 * dur
+    return t[keep]
+
+
+def posterior_cloud(n: int, seed: int = 11) -> list[dict]:
+    """n parameter sets scattered like a posterior (relative widths ~1e-3, 0.02 deg, 0.01 in LD)."""
+    rng = np.random.default_rng(seed)
+    sets = []
+    for _ in range(n):
+        kw = dict(FIT_TRUTH)
+        kw["radius_ratio"] *= 1 + 2e-3 * rng.normal()
+        kw["radius_sum"] *= 1 + 1e-3 * rng.normal()
+        kw["inclination"] += 0.02 * rng.normal()
+        kw["ld_primary"] = (0.40 + 0.01 * rng.normal(), 0.25 + 0.01 * rng.normal())
+        kw["ld_secondary"] = (0.45 + 0.01 * rng.normal(), 0.22 + 0.01 * rng.normal())
+        sets.append(kw)
+    return sets
+
+
+def changing_parameters(repeats: int, rev: str) -> list[str]:
+    t = windowed_sector_times()
+    sets = posterior_cloud(WALKERS * max(repeats, 8))
+    batches = [{k: np.array([s[k] for s in sets[j:j + WALKERS]]) for k in sets[0]}
+               for j in range(0, len(sets), WALKERS)]
+    old = previous_model_flux(rev)
+    model_flux(t, **sets[0])
+    model_flux_batch(t, **batches[0])
+    old(t, **sets[0])
+    n_calls = len(sets)
+    # interleaved rounds (one call of each kind per round): load changes on a shared machine hit all three
+    rounds = max(repeats, 8) * 3
+    times = np.empty((rounds, 3))
+    for r in range(rounds):
+        for j, call in enumerate((lambda: model_flux(t, **sets[r % n_calls]),
+                                  lambda: model_flux_batch(t, **batches[r % len(batches)]),
+                                  lambda: old(t, **sets[r % n_calls]))):
+            t1 = time.perf_counter()
+            call()
+            times[r, j] = time.perf_counter() - t1
+    t_new, t_batch, t_old = np.median(times, axis=0)
+    t_batch /= WALKERS
+    # accuracy: batch rows against single calls, and both against the previous implementation
+    b = model_flux_batch(t, **batches[0])
+    single = np.array([model_flux(t, **s) for s in sets[:WALKERS]])
+    prev = np.array([old(t, **s) for s in sets[:WALKERS]])
+    in_eclipse = np.mean(single < 1.0)
+    return [f"parameters changing every call, bench_fit sector within 1.5 durations of each eclipse: {t.size} "
+            f"times, {100 * in_eclipse:.0f}% in eclipse, e = 0.037, quadratic LD, {n_calls} parameter sets",
+            f"  model_flux              {1e3 * t_new:6.3f} ms per set (median of {rounds} interleaved rounds)",
+            f"  model_flux_batch (M={WALKERS}) {1e3 * t_batch:6.3f} ms per set (median call / {WALKERS})",
+            f"  previous model_flux     {1e3 * t_old:6.3f} ms per set (revision {rev}, same rounds)",
+            f"  ratios previous/model_flux {t_old / t_new:5.1f}x, previous/batch {t_old / t_batch:5.1f}x; "
+            f"target batch <= 0.4 ms per set",
+            f"  max |batch - single| {np.max(np.abs(b - single)):.1e}; max |new - previous| "
+            f"{np.max(np.abs(single - prev)):.1e} (the previous phase carried the rounding of a BJD-sized "
+            "time of periastron, ~1e-9)"]
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeats", type=int, default=40)
+    ap.add_argument("--previous", default=PREVIOUS, help="git revision of the previous implementation")
+    ap.add_argument("--only-changing", action="store_true", help="only the parameters-changing-every-call case")
     args = ap.parse_args(argv)
     lines = []
-    for name, extra in CASES.items():
+    for name, extra in ({} if args.only_changing else CASES).items():
         kw = dict(SYSTEM, **extra)
         err, frac = accuracy(extra)
         model_flux(TIME, **kw)  # warm-up (imports, first allocation)
@@ -159,9 +269,12 @@ def main(argv=None):
                      f"({N / t_fit / 1e6:5.1f} Mpts/s), {1e3 * t_rep:6.2f} ms repeat | plain {1e3 * t_plain:8.1f} ms "
                      f"| plain/fit-like {t_plain / t_fit:6.1f}x | max error {1e6 * err:.1e} ppm "
                      f"(plain 64-annulus differs by {1e6 * err_plain:.0f} ppm)")
-    print(f"bench_model: {N} times, P = 3 d, quadratic LD, single core, median of {args.repeats} calls "
-          "(plain: 3-5 calls)")
-    for line in lines:
+    if lines:
+        print(f"bench_model: {N} times, P = 3 d, quadratic LD, single core, median of {args.repeats} calls "
+              "(plain: 3-5 calls)")
+        for line in lines:
+            print(line)
+    for line in changing_parameters(args.repeats, args.previous):
         print(line)
 
 

@@ -371,3 +371,164 @@ def test_supersample_one_means_instantaneous():
     assert np.array_equal(model_flux(t, exposure_time=0.02, supersample=1, **BASE), model_flux(t, **BASE))
     with pytest.raises(InputError, match="exposure_time"):
         model_flux(t, exposure_time=1.0, supersample=5, **BASE)   # longer than P / 4
+
+
+# ----------------------------------------------------------------------------------------------
+# many parameter sets at once (model_flux_batch) and the piecewise tables behind it
+# ----------------------------------------------------------------------------------------------
+def _batch_sets(law):
+    # radius ratios 0.3 .. 3, circular and eccentric orbits, partial / total / annular eclipses
+    ld = {"quadratic": [(0.45, 0.2), (0.3, 0.3), (0.6, 0.1), (0.4, 0.25)],
+          "power-2": [(0.6, 0.55), (0.7, 0.6), (0.5, 0.7), (0.65, 0.45)]}[law]
+    return dict(period=np.array([2.7, 3.1, 4.2, 1.9]), t0=np.array([0.4, 1.3, -2.0, 2460101.3217]),
+                radius_sum=np.array([0.2, 0.15, 0.25, 0.185]), radius_ratio=np.array([0.3, 3.0, 1.0, 0.78]),
+                inclination=np.array([89.5, 88.0, 86.5, 88.1]),
+                surface_brightness_ratio=np.array([0.6, 0.9, 0.5, 0.62]),
+                ecosw=np.array([0.0, 0.15, 0.05, 0.012]), esinw=np.array([0.0, -0.1, 0.08, -0.035]),
+                third_light=np.array([0.0, 0.1, 0.0, 0.0]), ld_law=law, ld_primary=ld, ld_secondary=ld[::-1])
+
+
+def _one_set(kw, i):
+    return {k: (v[i] if isinstance(v, (np.ndarray, list)) else v) for k, v in kw.items()}
+
+
+def _eclipse_times(kw, n=40):
+    # points spread over both eclipses (first to last contact and a little beyond)
+    out = []
+    t1, t2 = conjunction_times(period=kw["period"], t0=kw["t0"], ecosw=kw["ecosw"], esinw=kw["esinw"],
+                               inclination=kw["inclination"])
+    props = eclipse_properties(**{k: v for k, v in kw.items() if k != "t0"})
+    for tc, dur in ((t1, props["duration_primary"]), (t2, props["duration_secondary"])):
+        out.append(tc + 0.55 * dur * np.linspace(-1.0, 1.0, n))
+    return np.concatenate(out)
+
+
+@pytest.mark.parametrize("law", ["quadratic", "power-2"])
+def test_batch_equals_single_calls(law):
+    # consistency (no outside source): row i of the batch is model_flux of set i, to rounding
+    from eclipsekit.eclipse import model_flux_batch
+    kw = _batch_sets(law)
+    t = np.sort(np.concatenate([_eclipse_times(_one_set(kw, i)) for i in range(4)] + [np.linspace(-3, 30, 3000)]))
+    batch = model_flux_batch(t, **kw)
+    assert batch.shape == (4, t.size)
+    single = np.array([model_flux(t, **_one_set(kw, i)) for i in range(4)])
+    assert np.all(np.any(single < 0.99, axis=1))          # every set eclipses
+    assert np.max(np.abs(batch - single)) < 1e-12
+    # a set's numbers do not depend on its companions: the same set alone, or twice, or reordered
+    alone = model_flux_batch(t, **{k: (v[2:3] if isinstance(v, np.ndarray) else v[2:3] if isinstance(v, list) else v)
+                                   for k, v in kw.items()})
+    assert np.max(np.abs(alone[0] - batch[2])) < 1e-12
+    # unsorted and shaped times give the same numbers
+    order = np.random.default_rng(5).permutation(t.size)
+    assert np.max(np.abs(model_flux_batch(t[order], **kw) - batch[:, order])) < 1e-12
+
+
+@pytest.mark.parametrize("law", ["quadratic", "power-2"])
+def test_batch_against_brute_force_grid(law):
+    # independent reference: tests/_brute_force.py (Kepler by brentq, polar grid over the disc; its
+    # worst-case error is ~7e-6 of a star's flux at a 200 x 400 grid, test_fitting.py, and second
+    # order in the cell size, so ~3e-6 at the default 300 x 600 used here)
+    from _brute_force import brute_force_flux
+    from eclipsekit.eclipse import model_flux_batch
+    kw = _batch_sets(law)
+    for i in range(4):
+        one = _one_set(kw, i)
+        t = _eclipse_times(one, n=9)
+        got = model_flux_batch(t, **kw)[i]
+        e = math.hypot(one["ecosw"], one["esinw"])
+        ref = brute_force_flux(t, period=one["period"], t0=one["t0"], radius_sum=one["radius_sum"],
+                               radius_ratio=one["radius_ratio"], inclination=one["inclination"],
+                               surface_brightness_ratio=one["surface_brightness_ratio"], eccentricity=e,
+                               omega=math.degrees(math.atan2(one["esinw"], one["ecosw"])) if e else 90.0,
+                               third_light=one["third_light"], ld_law=law, ld_primary=one["ld_primary"],
+                               ld_secondary=one["ld_secondary"])
+        assert np.min(ref) < 0.95
+        assert np.max(np.abs(got - ref)) < 1e-5, i
+
+
+def test_batch_arguments_checked():
+    from eclipsekit.eclipse import model_flux_batch
+    kw = _batch_sets("quadratic")
+    with pytest.raises(InputError, match="different lengths"):
+        model_flux_batch([0.0, 0.1], **dict(kw, radius_sum=np.array([0.2, 0.2])))
+    with pytest.raises(GeometryError, match="parameter set 1"):
+        model_flux_batch([0.0, 0.1], **dict(kw, inclination=np.array([89.0, 91.0, 88.0, 88.0])))
+    with pytest.raises(InputError, match="ld_primary"):
+        model_flux_batch([0.0, 0.1], **dict(kw, ld_primary=[(0.4, 0.2)] * 3))
+    # scalars everywhere: one set
+    one = model_flux_batch([0.4, 0.5], **dict(BASE))
+    assert one.shape == (1, 2) and np.array_equal(one[0], model_flux([0.4, 0.5], **BASE))
+
+
+@pytest.mark.parametrize("law,coeffs", LAWS)
+def test_piece_table_matches_quadrature(law, coeffs):
+    # internal twin check: the piecewise series against the direct kink-aware quadrature (256 nodes,
+    # converged far below 1e-12), near the contacts too.  Tolerance: the series are built to 2e-11
+    # from a 32-node quadrature whose own error is < 5e-11 (measured against 256 nodes).
+    from eclipsekit import _occultation as occ
+    ps = np.array([0.05, 0.3, 0.78, 0.999, 1.0, 1.28, 3.0, 12.0])
+    rows = [(p, zm) for p in ps for zm in (0.0, 0.5 * abs(1 - p), abs(1 - p) + 0.01, 0.5 * (abs(1 - p) + 1 + p))]
+    p = np.array([r[0] for r in rows])
+    z_min = np.array([r[1] for r in rows])
+    a, beta = occ.intensity_terms(law, coeffs)
+    table = occ.piece_table(p, np.tile(a, (p.size, 1)), np.tile(beta, (p.size, 1)), z_min)
+    z = np.array([np.concatenate([np.linspace(zm, 1.05 * (1 + pp), 200), abs(1 - pp) + np.logspace(-12, -1, 12),
+                                  1 + pp - np.logspace(-12, -1, 12)]) for pp, zm in rows])
+    z = np.maximum(z, z_min[:, None])
+    got = occ.piece_table_eval(table, z)
+    for i, (pp, _) in enumerate(rows):
+        ref = occ.hidden_fraction_quadrature(z[i], pp, a, beta, 256)
+        assert np.max(np.abs(got[i] - ref)) < 1e-10, (pp, rows[i][1])
+        # and the row-wise quadrature is the same computation as the scalar one (rounding only)
+        assert np.max(np.abs(occ.hidden_fraction_rows(z[i:i + 1], np.array([[pp]]), a[None], beta[None], 32)[0]
+                             - occ.hidden_fraction_quadrature(z[i], pp, a, beta, 32))) < 1e-14
+
+
+def test_model_flux_against_exact_path_at_large_times():
+    # times near BJD 2.46e6: the phase is taken from exact differences with t0, so the model matches a
+    # slow exact path computed on times relative to t0 (direct 256-node quadrature at separations from
+    # this package's sky_separation with t0 = 0: an internal consistency check) at the 1e-11 level
+    from eclipsekit import _occultation as occ
+    kw = dict(BASE, t0=2460101.3217, period=3.4713, ecosw=0.012, esinw=-0.035, radius_sum=0.185, radius_ratio=0.78,
+              inclination=88.1)
+    t = kw["t0"] + np.linspace(-20.0, 20.0, 40001)
+    f = model_flux(t, **kw)
+    d, star1_front = sky_separation(t - kw["t0"], period=kw["period"], t0=0.0, ecosw=kw["ecosw"], esinw=kw["esinw"],
+                                    inclination=kw["inclination"])
+    k, r1 = kw["radius_ratio"], kw["radius_sum"] / (1 + kw["radius_ratio"])
+    l2 = kw["surface_brightness_ratio"] * k * k
+    ref = np.ones_like(t)
+    for front, r_back, p, ld, w in ((False, r1, k, kw["ld_primary"], 1 / (1 + l2)),
+                                    (True, k * r1, 1 / k, kw["ld_secondary"], l2 / (1 + l2))):
+        sel = (star1_front == front) & (d < kw["radius_sum"])
+        a, beta = occ.intensity_terms("quadratic", ld)
+        ref[sel] -= w * occ.hidden_fraction_quadrature(d[sel] / r_back, p, a, beta, 256)
+    assert np.sum(ref < 1) > 4000            # ~4,650 points in eclipse
+    assert np.max(np.abs(f - ref)) < 1e-11
+
+
+@pytest.mark.parametrize("coeffs,ok", [((5.0, -5.0), False), ((4.0, -4.0), True), ((1.5, 0.5), False),
+                                        ((0.8, 0.1), True), ((-0.5, 0.2), True)])
+def test_limb_darkening_positivity_is_exact(coeffs, ok):
+    # 1 - u1 x - u2 x^2 on 0 <= x <= 1: least value at an end or, for u2 < 0, at the vertex x = -u1 / (2 u2)
+    # (calculus; common practice).  (5, -5) is negative only inside the disc (x = 1/2), (4, -4) touches 0.
+    x = np.linspace(0.0, 1.0, 100001)
+    assert (np.min(1 - coeffs[0] * x - coeffs[1] * x * x) >= 0.0) == ok     # dense-grid cross-check
+    kw = dict(BASE, ld_primary=coeffs)
+    if ok:
+        assert np.all(np.isfinite(model_flux([0.4], **kw)))
+    else:
+        with pytest.raises(GeometryError, match="negative intensity"):
+            model_flux([0.4], **kw)
+
+
+def test_batch_with_exposure_smearing_equals_single_calls():
+    # consistency (no outside source): the smeared batch is the smeared single calls, set by set
+    from eclipsekit.eclipse import model_flux_batch
+    base = _batch_sets("quadratic")
+    t = np.sort(np.concatenate([_eclipse_times(_one_set(base, i), n=30) for i in range(4)]))
+    kw = dict(base, exposure_time=0.02, supersample=5)
+    batch = model_flux_batch(t, **kw)
+    single = np.array([model_flux(t, **_one_set(kw, i)) for i in range(4)])
+    assert np.max(np.abs(batch - single)) < 1e-12
+    assert np.max(np.abs(batch - model_flux_batch(t, **dict(kw, supersample=1)))) > 1e-5   # smearing is real

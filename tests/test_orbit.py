@@ -224,3 +224,53 @@ def test_orbital_phase_range_and_zero_point(start):
     cycles = ph - (t - 1.0) / 3.0
     np.testing.assert_allclose(cycles, np.round(cycles), atol=1e-12)
     assert orbital_phase(1.0 + 7 * 3.0, 3.0, 1.0, start) == pytest.approx(0.0, abs=1e-12)
+
+
+# ----------------------------------------------------------------------------------------------
+# contacts and mid-eclipse by Newton's method (the model's windows)
+# ----------------------------------------------------------------------------------------------
+@pytest.mark.parametrize("seed", [1, 2])
+def test_contacts_are_where_the_reference_separation_equals_the_radius(seed):
+    # independent reference: the test-local orbit (brentq on Kepler's equation, textbook separation)
+    # evaluated at the package's contact times must give d = radius; a contact time good to
+    # ~1e-15 P moves d by ~2 pi (1 + e) / (1 - e)^2 * 1e-15 < 4e-14 (units of a)
+    from eclipsekit.orbit import orbit_geometry
+    rng = np.random.default_rng(seed)
+    checked = 0
+    for _ in range(40):
+        period = rng.uniform(0.5, 10.0)
+        e = rng.uniform(0.0, 0.6) if rng.uniform() < 0.8 else 0.0
+        w = rng.uniform(0.0, 2 * math.pi)
+        inc = rng.uniform(75.0, 90.0)
+        radius = rng.uniform(0.05, 0.5) * (1 - e)
+        g = orbit_geometry(period, 0.0, e * math.cos(w), e * math.sin(w), inc)
+        for sigma, tc in ((+1, g.t0), (-1, g.t_secondary)):
+            window = g.contacts(radius, sigma)
+            if window is None:
+                continue
+            for dt in window:
+                d = _sky_reference(tc + dt, g.t_periastron, period, e, g.omega, inc)   # omega = 0 if e = 0
+                assert abs(d - radius) < 1e-12
+                checked += 1
+    assert checked > 80
+
+
+def test_newton_and_bracketing_agree():
+    # internal twin check: Newton's method (fast path) against the grid-and-Brent path kept as fallback
+    from eclipsekit.orbit import _mid_eclipse_offset, _mid_eclipse_offset_bracketed, orbit_geometry
+    rng = np.random.default_rng(7)
+    for _ in range(300):
+        e = rng.uniform(0.0, 0.8)
+        w = rng.uniform(0.0, 2 * math.pi)
+        inc = rng.uniform(61.0, 90.0)
+        cos_i, sin_i = math.cos(math.radians(inc)), math.sin(math.radians(inc))
+        for sigma in (+1, -1):
+            x = _mid_eclipse_offset(e, w, cos_i, sin_i, sigma)
+            assert abs(x - _mid_eclipse_offset_bracketed(e, w, cos_i, sin_i, sigma)) < 1e-13
+        g = orbit_geometry(rng.uniform(1, 5), 0.0, e * math.cos(w), e * math.sin(w), inc)
+        radius = rng.uniform(0.05, 0.9) * (1 - e)
+        for sigma in (+1, -1):
+            fast = g.contacts(radius, sigma)
+            if fast is not None:
+                slow = g._contacts_bracketed(radius, sigma)
+                assert max(abs(fast[0] - slow[0]), abs(fast[1] - slow[1])) < 1e-12 * g.period
