@@ -10,7 +10,7 @@ between them, validates the options and issues the fit's warnings.
 from __future__ import annotations
 
 import warnings
-from typing import Any, Iterable
+from typing import Any, Iterable, Mapping
 
 from ..data import LightCurve
 from ..errors import EclipsekitWarning, InputError
@@ -30,7 +30,9 @@ def fit_eclipses(
     t0: Any = None,
     fix: Iterable[str] = (),
     free: Iterable[str] = (),
-    errors: str = "covariance",
+    errors: str = "auto",
+    fixed: Mapping[str, Any] | None = None,
+    priors: Mapping[str, Any] | None = None,
     exposure_time: Any = None,
     supersample: int | None = None,
     ld_law: str = "quadratic",
@@ -51,6 +53,8 @@ def fit_eclipses(
     velocities: Any = None,
     separate_gamma: bool = False,
     check_limb_darkening: bool = True,
+    check_third_light: bool = True,
+    mcmc_seconds: float | None = None,
     **values: Any,
 ) -> EclipseFit:
     """Fit both eclipses of a detached eclipsing binary (optionally jointly with velocities).
@@ -68,18 +72,34 @@ def fit_eclipses(
     period, t0 : float or Quantity, optional
         Ephemeris (days), overriding the start's.
     fix, free : list of str
-        Parameters to hold fixed / to fit.  Names as in :data:`PARAMETERS` plus
-        ``ld1_1``, ``ld1_2``, ``ld2_1``, ``ld2_2``, and the shortcuts ``eccentricity``
+        Parameters to hold fixed (at their start value; see ``fixed`` to give the value)
+        / to fit.  Names as in :data:`PARAMETERS` plus the limb-darkening coefficients
+        ``ld1_1``, ``ld1_2``, ``ld2_1``, ``ld2_2`` and their fitted combinations
+        (``ld1_sum``, ``ld1_diff`` for the quadratic law, ``ld1_h1``, ``ld1_h2`` for
+        power-2; :mod:`eclipsekit.limb_darkening`), and the shortcuts ``eccentricity``
         (ecosw and esinw), ``limb_darkening``, ``ld1``, ``ld2``.  Defaults: period, t0,
-        radius_sum, radius_ratio, inclination and surface_brightness_ratio free; ecosw
-        and esinw free when the secondary's phase or width says the orbit is eccentric,
-        else fixed at 0; third_light fixed at 0; limb darkening fixed.
-    errors : {"covariance", "mcmc", "permutation"}
+        radius_sum, radius_ratio, inclination, surface_brightness_ratio and the limb
+        darkening of both stars free (the combinations, each with a weak Gaussian prior
+        around the typical or given coefficients); ecosw and esinw free when the
+        secondary's phase or width says the orbit is eccentric, else fixed at 0;
+        third_light fixed at 0 (with a check of what freeing it would change).  Naming a
+        star's coefficients in ``free``, ``fix``, ``fixed`` or ``priors`` fits exactly
+        those coefficients of that star instead, with no automatic prior.
+    errors : {"auto", "covariance", "mcmc", "permutation"}
         Uncertainties from the least-squares covariance matrix scaled by the reduced
-        chi-square; from an emcee run through lmfit (needs the ``mcmc`` extra); or from
-        residual permutation ("prayer bead": cyclic shifts of the residuals, each
-        refitted; Bouma et al. 2009, AJ 137, 4691, sect. 4.2; Southworth 2008, MNRAS 386,
-        1644), which includes correlated noise.
+        chi-square; from an emcee run; or from residual permutation ("prayer bead":
+        cyclic shifts of the residuals, each refitted; Bouma et al. 2009, AJ 137, 4691,
+        sect. 4.2; Southworth 2008, MNRAS 386, 1644), which includes correlated noise.
+        "auto" (default) uses the covariance when it can be trusted and otherwise an
+        MCMC within ``mcmc_seconds`` (default 60 s per 20,000 points); the reasons are
+        in ``diagnostics["errors_reasons"]`` (see
+        :func:`eclipsekit.fit.uncertainties.trust.covariance_doubts`).
+    fixed : dict, optional
+        Parameters held fixed at the values given, e.g. ``{"inclination": 89.2}``.
+    priors : dict, optional
+        Gaussian priors ``{name: (value, sigma)}`` on any fitted parameter or on the
+        light ratio ``light_ratio`` (L2/L1 = J k^2, e.g. from spectroscopy): extra
+        residuals in the least squares, log-prior terms in the MCMC.
     exposure_time : float or Quantity, optional
         Integration time (days); default ``lc.meta["exposure_time"]`` or 0.
     supersample : int, optional
@@ -115,6 +135,12 @@ def fit_eclipses(
         with them free and warn if r1 + r2, k, i or J then move by more than 3 sigma:
         fixed limb darkening that does not match the data biases the geometry by more
         than its formal errors (deep, well-sampled eclipses constrain it).
+    check_third_light : bool
+        When third light is held at 0 by default, refit once with it free: adopt that fit
+        when the data clearly need third light, and otherwise say how much third light
+        the data allow and how much it would move the radii (``notes``).
+    mcmc_seconds : float, optional
+        Time budget of the MCMC (it stops early, with a warning, when it runs out).
     progress : bool
         Show progress bars (MCMC, permutation).
     seed : int, optional
@@ -158,7 +184,7 @@ def fit_eclipses(
                         exposure_time=exposure_time, supersample=supersample, ld_law=ld_law,
                         ld_primary=ld_primary, ld_secondary=ld_secondary, baseline_degree=baseline_degree,
                         gap=gap, clip_sigma=clip_sigma, window=window, n_samples=n_samples, progress=progress,
-                        seed=seed, separate_gamma=separate_gamma, **values)
+                        seed=seed, separate_gamma=separate_gamma, fixed=fixed, priors=priors, **values)
     else:
         if separate_gamma:
             raise InputError("`separate_gamma` needs `velocities` (a joint fit)")
@@ -168,7 +194,8 @@ def fit_eclipses(
             baseline_degree=baseline_degree, gap=gap, clip_sigma=clip_sigma, window=window,
             mcmc_walkers=mcmc_walkers, mcmc_steps=mcmc_steps, mcmc_burn=mcmc_burn, mcmc_thin=mcmc_thin,
             n_samples=n_samples, n_shifts=n_shifts, progress=progress, seed=seed,
-            check_limb_darkening=check_limb_darkening, **values)
+            check_limb_darkening=check_limb_darkening, check_third_light=check_third_light, fixed=fixed,
+            priors=priors, mcmc_seconds=mcmc_seconds, **values)
         fit = fit_light_curve(lc, start, settings).fit
     for msg in fit.warnings:
         warnings.warn(msg, EclipsekitWarning, stacklevel=2)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import copy
+import dataclasses
 import time as _time
 import warnings
 from dataclasses import dataclass
@@ -20,6 +22,7 @@ from .parameters import DERIVED, ld_coefficients, parameter_names, unit
 from .result import EclipseFit
 from .settings import FitSettings, make_settings
 from .start import estimate_start
+from .uncertainties.trust import covariance_doubts
 from .uncertainties import METHODS, UncertaintyContext, UncertaintyEstimate, UncertaintyMethod
 
 __all__ = ["LightCurveSolution", "fit_light_curve", "start_values", "estimate_uncertainties", "derive",
@@ -56,6 +59,7 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     rng = np.random.default_rng(settings.seed)
     initial = initial_parameters(lc, start_values(lc, start, settings), settings)
     sol = solve(lc, initial, settings)
+    settings = choose_errors(sol, settings)
     estimate, runner, method = estimate_uncertainties(sol, settings, rng)
     sol.diagnostics.update(estimate.diagnostics)
     values, unc, samples = derive(sol, settings, estimate, runner, method, rng)
@@ -73,6 +77,31 @@ def start_values(lc: LightCurve, start: Any, settings: FitSettings) -> dict[str,
     return estimate_start(start if start is not None else {}, period=settings.period, t0=settings.t0)
 
 
+#: time budget of the MCMC that ``errors="auto"`` falls back to, per 20,000 points (seconds)
+AUTO_MCMC_SECONDS = 60.0
+
+
+def choose_errors(sol: LeastSquaresSolution, settings: FitSettings) -> FitSettings:
+    """Resolve ``errors="auto"``: the covariance when it can be trusted, else an MCMC within a time budget.
+
+    The reasons (see :func:`~eclipsekit.fit.uncertainties.trust.covariance_doubts`) go to
+    ``diagnostics["errors_reasons"]``.
+    """
+    if settings.errors != "auto":
+        return settings
+    pr, pm = sol.problem, sol.problem.mapping
+    doubts = covariance_doubts(
+        pm.free, sol.x_best, sol.covariance, pm.lower, pm.upper,
+        lambda x: float(np.sum(pr.residual_from(dict(zip(pm.internal, x))) ** 2)), sol.redchi_fit, sol.best)
+    sol.diagnostics["errors_reasons"] = doubts
+    if not doubts or sol.covariance is None:
+        return dataclasses.replace(settings, errors="covariance")
+    budget = settings.mcmc_seconds
+    if budget is None:
+        budget = AUTO_MCMC_SECONDS * max(1.0, len(sol.lc) / 20000)
+    return dataclasses.replace(settings, errors="mcmc", mcmc_seconds=budget, mcmc_profile=True)
+
+
 def estimate_uncertainties(sol: LeastSquaresSolution, settings: FitSettings, rng: np.random.Generator
                            ) -> tuple[UncertaintyEstimate, UncertaintyMethod, UncertaintyMethod]:
     """Run the ``errors=`` plug-in; the covariance one when there is no covariance matrix to start from.
@@ -87,8 +116,24 @@ def estimate_uncertainties(sol: LeastSquaresSolution, settings: FitSettings, rng
         problem=pr, mapping=pr.mapping, best=sol.best, x_best=sol.x_best, covariance=sol.covariance,
         redchi=sol.redchi_fit, rng=rng, settings=settings, model_full=sol.model * sol.baseline,
         residuals_full=sol.residuals,
-        refit=lambda flux, max_nfev: run_least_squares(pr, sol.best, flux=flux, max_nfev=max_nfev)[1])
+        refit=lambda flux, max_nfev: run_least_squares(pr, sol.best, flux=flux, max_nfev=max_nfev)[1],
+        profile=lambda name, value: profile_point(sol, name, value))
     return runner.estimate(ctx), runner, method
+
+
+def profile_point(sol: LeastSquaresSolution, name: str, value: float) -> tuple[np.ndarray, float] | None:
+    """Least squares of the windowed problem with ``name`` held at ``value``: (fitted vector, chi-square rise)."""
+    pr, pm = sol.problem, sol.problem.mapping
+    held = copy.copy(pr)
+    keep = [i for i, n in enumerate(pm.free) if n != name]
+    held.mapping = dataclasses.replace(pm, free=[pm.free[i] for i in keep], fixed={**pm.fixed, name: value},
+                                       limits=[pm.limits[i] for i in keep])
+    try:
+        res, v = run_least_squares(held, {**sol.best, name: value}, max_nfev=100 * (len(keep) + 1))
+    except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+        return None
+    chi2_best = float(np.sum(pr.residual_from(dict(zip(pm.internal, sol.x_best))) ** 2))
+    return pm.vector(v), float(np.sum(res.residual ** 2)) - chi2_best
 
 
 def derive(sol: LeastSquaresSolution, settings: FitSettings, estimate: UncertaintyEstimate,

@@ -59,6 +59,23 @@ class EclipseFit:
         Covariance of the free parameters (in the order of ``free``), scaled by the
         reduced chi-square, in the fitted parameterisation: ``t0`` as the offset from
         ``diagnostics["t_ref"]``, ``period`` as ``(P - P_ref) * diagnostics["n_cycles"]``.
+    status : str
+        "ok" when the fit is acceptable (eclipse residuals consistent with the
+        out-of-eclipse scatter, converged, no parameter at a bound) and no warning says
+        the answer is biased; "poor_fit" when the model does not describe the eclipses
+        (or the fit did not converge); "caution" when the fit is acceptable but a warning
+        says the answer may be biased (e.g. stars too large for spherical shapes,
+        unmodelled out-of-eclipse variation).  ``status_reasons`` says why.
+    notes : list of str
+        What the fit decided and the user should know, not warnings: which limb-darkening
+        combinations the data constrain, why an MCMC was run, what third light the data allow.
+    priors : dict of str -> (float, float)
+        Every Gaussian prior used (centre, sigma), the automatic limb-darkening ones included.
+    fixed : list of str
+        Model parameters held fixed (neither fitted nor computed from fitted combinations).
+    intervals : dict of str -> (float, float)
+        Central 68.27% interval (lower, upper) of every varying parameter and derived
+        quantity, from the samples; asymmetric where the posterior is.
     orbit : OrbitFit or None
         Joint fit only (``velocities=`` given): the spectroscopic orbit at the joint
         values, an :class:`~eclipsekit.spectroscopy.OrbitFit` whose samples are rows of
@@ -93,6 +110,12 @@ class EclipseFit:
     covariance: np.ndarray | None = None
     n_baseline: int = 0
     segments: list[tuple[float, float]] = field(default_factory=list)
+    status: str = "ok"
+    status_reasons: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    priors: dict[str, tuple[float, float]] = field(default_factory=dict)
+    fixed: list[str] = field(default_factory=list)
+    intervals: dict[str, tuple[float, float]] = field(default_factory=dict)
     orbit: Any = None
     _problem: Any = field(default=None, repr=False)
 

@@ -57,6 +57,7 @@ class FitSettings:
     check_limb_darkening: bool = True
     check_third_light: bool = True
     mcmc_seconds: float | None = None
+    mcmc_profile: bool = False
 
 
 def make_settings(

@@ -62,6 +62,10 @@ class UncertaintyContext:
     refit : callable
         ``refit(flux, max_nfev)``: physical values of a least-squares refit of ``problem``
         to other fluxes at its points, from ``best``.
+    profile : callable
+        ``profile(name, value)``: a least-squares refit with parameter ``name`` held at
+        ``value``, as (fitted vector with ``value`` in its place, chi-square rise over the
+        best fit), or None when it fails.
     """
 
     problem: Problem
@@ -75,6 +79,7 @@ class UncertaintyContext:
     model_full: np.ndarray | None = None
     residuals_full: np.ndarray | None = None
     refit: Callable[[np.ndarray, int], Mapping[str, float]] | None = None
+    profile: Callable[[str, float], tuple[np.ndarray, float] | None] | None = None
 
 
 @dataclass

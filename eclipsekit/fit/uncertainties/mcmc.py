@@ -53,7 +53,11 @@ def _run(pr: Any, pos: np.ndarray, st: Any) -> tuple[Any, int]:
     """emcee from ``pos`` for ``mcmc_steps`` steps, or until ``mcmc_seconds`` have passed; (sampler, steps run)."""
     import emcee
 
-    sampler = emcee.EnsembleSampler(pos.shape[0], pos.shape[1], pr.log_posterior_rows, vectorize=True)
+    # differential-evolution proposals (with a snooker share) follow long, curved degeneracies such as the
+    # k - i - third light valley of grazing eclipses better than the stretch move alone (ter Braak 2006, Stat.
+    # Comput. 16, 239; ter Braak & Vrugt 2008, Stat. Comput. 18, 435; Nelson et al. 2014, ApJS 210, 11)
+    moves = [(emcee.moves.DEMove(), 0.8), (emcee.moves.DESnookerMove(), 0.2)]
+    sampler = emcee.EnsembleSampler(pos.shape[0], pos.shape[1], pr.log_posterior_rows, vectorize=True, moves=moves)
     if st.seed is not None:
         sampler.random_state = np.random.RandomState(int(st.seed)).get_state()
     t_end = None if st.mcmc_seconds is None else _time.perf_counter() + st.mcmc_seconds
@@ -74,6 +78,52 @@ def _on_terminal() -> bool:
 
 
 def _start_positions(ctx: UncertaintyContext) -> np.ndarray:
+    """Walker starts: along the profile of a degenerate radius ratio, else draws from the covariance."""
+    if ctx.settings.mcmc_profile and "radius_ratio" in ctx.mapping.free and ctx.profile is not None:
+        pos = _valley_positions(ctx)
+        if pos is not None:
+            return pos
+    return _covariance_positions(ctx)
+
+
+#: radius ratios of the profile, as factors of the best fit's (k and 1/k both appear: partial and grazing
+#: eclipses hardly tell which star is the larger)
+_PROFILE_FACTORS = (1 / 3, 1 / 2, 2 / 3, 0.8, 1.25, 1.5, 2, 3)
+
+
+def _valley_positions(ctx: UncertaintyContext) -> np.ndarray | None:
+    """Walkers spread over the chi-square valley of a degenerate fit.
+
+    Least-squares fits at radius ratios held at a range of values around the best fit
+    (a profile of chi-square in k) trace the valley along which k, inclination, r1 + r2
+    and third light trade off; walkers start at the points within chi-square 11.6 (the
+    3-sigma level for 1 parameter... with margin for the other parameters' moves: 99.9%
+    of chi-square with 2 degrees of freedom is 13.8, 11.6 covers 3 sigma of one) of the
+    best, so the differential-evolution moves can sample the whole valley rather than
+    the neighbourhood of one end of it.
+    """
+    pm = ctx.mapping
+    i_k = pm.free.index("radius_ratio")
+    lo, hi = pm.limits[i_k]
+    k0 = ctx.best["radius_ratio"]
+    points = [ctx.x_best]
+    for fac in _PROFILE_FACTORS:
+        k = float(np.clip(k0 * fac, lo, hi))
+        found = ctx.profile("radius_ratio", k)
+        if found is not None and found[1] < 11.6 * ctx.redchi:
+            points.append(found[0])
+    if len(points) < 2:
+        return None
+    nvar = len(pm.free)
+    nwalk = max(int(ctx.settings.mcmc_walkers), 2 * nvar + 2)
+    pts = np.array(points)
+    ball = ctx.covariance if ctx.covariance is not None else np.diag(np.full(nvar, 1e-8))
+    pos = pts[np.arange(nwalk) % len(pts)] + ctx.rng.multivariate_normal(np.zeros(nvar), 0.01 * ball, size=nwalk)
+    pos = pm.fold(pos)
+    return np.clip(pos, pm.lower + 1e-9 * (pm.upper - pm.lower), pm.upper - 1e-9 * (pm.upper - pm.lower))
+
+
+def _covariance_positions(ctx: UncertaintyContext) -> np.ndarray:
     """Walker starts: draws from the covariance inside the bounds (the best fit where too few are)."""
     pm = ctx.mapping
     lo_int, hi_int = pm.lower, pm.upper
