@@ -23,35 +23,62 @@ __all__ = ["validity_warnings", "limb_darkening_shift", "limb_darkening_warning"
 
 def validity_warnings(values: Mapping[str, float], uncertainties: Mapping[str, float | None], time: np.ndarray,
                       flux_err: np.ndarray, residuals: np.ndarray, baseline: np.ndarray,
-                      durations: tuple[float, float], redchi: float, redchi_reference: float) -> list[str]:
-    """Warnings on the fitted geometry and the quality of the fit (empty when none applies).
+                      durations: tuple[float, float], redchi: float, redchi_reference: float
+                      ) -> list[tuple[str, str]]:
+    """Warnings on the fitted geometry and the quality of the fit, as (kind, message); empty when none applies.
 
-    ``time``, ``flux_err``, ``residuals`` and ``baseline`` are at every point of the light
-    curve fitted; ``durations`` those of the fitted primary and secondary eclipse (days);
+    ``kind`` is "bias" (the answer may be biased), "poor" (the model does not describe
+    the data) or "info" (the answer is honest but weak).  ``time``, ``flux_err``,
+    ``residuals`` and ``baseline`` are at every point of the light curve fitted;
+    ``durations`` those of the fitted primary and secondary eclipse (days);
     ``redchi_reference`` the reduced chi-square of the noise alone (out of eclipse).
     """
     out = []
     r1, r2 = values["frac_radius_primary"], values["frac_radius_secondary"]
     if max(r1, r2) > 0.25:
-        out.append(f"fractional radius {'r1' if r1 >= r2 else 'r2'} = {max(r1, r2):.3f} > 0.25: the star is "
-                   "probably tidally distorted and the spherical-star model (meant for well-detached systems) "
-                   "may be biased (common practice)")
+        out.append(("bias", f"fractional radius {'r1' if r1 >= r2 else 'r2'} = {max(r1, r2):.3f} > 0.25: the "
+                   "star is probably tidally distorted and the spherical-star model (meant for well-detached "
+                   "systems) may be biased (common practice)"))
     oot = ~window_mask(time, values, durations[0], durations[1], flank=0.1)
     if oot.sum() > 50:
         msg = _out_of_eclipse_variation(values, time[oot], flux_err[oot], residuals[oot] / baseline[oot], redchi)
         if msg:
-            out.append(msg)
+            out.append(("bias", msg))
     e_fit = values["eccentricity"]
     if e_fit > 0.7:
-        out.append(f"eccentricity {e_fit:.2f} is large; check the secondary eclipse identification")
+        out.append(("bias", f"eccentricity {e_fit:.2f} is large; check the secondary eclipse identification"))
     uk = uncertainties.get("radius_ratio")
     if uk is not None and values["radius_ratio"] > 0 and uk / values["radius_ratio"] > 0.1:
-        out.append(f"radius ratio poorly constrained ({100 * uk / values['radius_ratio']:.0f}%): partial "
-                   "eclipses; a spectroscopic light ratio would help")
+        out.append(("info", f"radius ratio poorly constrained ({100 * uk / values['radius_ratio']:.0f}%): partial "
+                   "eclipses; a spectroscopic light ratio would help (--prior light_ratio=VALUE±SIGMA)"))
     if redchi > 3 * redchi_reference + 1:
-        out.append(f"reduced chi-square {redchi:.2f} is high compared with the out-of-eclipse scatter "
-                   f"({redchi_reference:.2f}): the model does not describe the eclipses well")
+        out.append(("poor", f"reduced chi-square {redchi:.2f} is high compared with the out-of-eclipse scatter "
+                   f"({redchi_reference:.2f}): the model does not describe the eclipses well"))
+    poor = _eclipse_residual_excess(values, time, flux_err, residuals, durations)
+    if poor:
+        out.append(("poor", poor))
     return out
+
+
+def _eclipse_residual_excess(values: Mapping[str, float], time: np.ndarray, flux_err: np.ndarray,
+                             residuals: np.ndarray, durations: tuple[float, float]) -> str | None:
+    """A message when the residuals inside the eclipses are larger than those outside them.
+
+    With a model that describes the eclipses, the mean squared normalised residual is the
+    same inside and outside them; its sampling scatter over n points is sqrt(2/n) of its
+    value (chi-square distribution), and 5 such sigmas is the threshold used here.
+    """
+    inside = window_mask(time, values, durations[0], durations[1], flank=0.0)
+    n_in, n_out = int(inside.sum()), int((~inside).sum())
+    if n_in < 20 or n_out < 20:
+        return None
+    z2 = (residuals / flux_err) ** 2
+    rc_in, rc_out = float(np.mean(z2[inside])), float(np.mean(z2[~inside]))
+    if rc_in > rc_out * (1 + 5 * math.sqrt(2.0 / n_in)):
+        return (f"residuals inside the eclipses are larger than outside them (mean squared normalised residual "
+                f"{rc_in:.2f} vs {rc_out:.2f} over {n_in} points in eclipse): the model does not describe the "
+                "eclipses")
+    return None
 
 
 def _out_of_eclipse_variation(values: Mapping[str, float], time: np.ndarray, flux_err: np.ndarray,

@@ -232,8 +232,15 @@ class _Driver:
             out.append(vp)
         return out
 
-    def clip_outliers(self, z_full: np.ndarray) -> int:
-        """Remove points beyond ``clip_sigma`` robust sigmas (unless over 5% are); the number removed."""
+    def clip_outliers(self, z_full: np.ndarray, in_eclipse: np.ndarray) -> int:
+        """Remove points beyond ``clip_sigma`` robust sigmas (unless over 5% are); the number removed.
+
+        Points inside the eclipses are never dropped silently: when more of the flagged
+        points fall in eclipse than chance would put there (their share of the data, plus
+        3 binomial sigmas), the model rather than the data is at fault, so the points in
+        eclipse are kept and the fit is marked poor (``diagnostics["clipping_in_eclipse"]``).
+        Otherwise the in-eclipse points removed are counted in ``diagnostics``.
+        """
         clip_sigma = self.settings.clip_sigma
         if clip_sigma is None or not clip_sigma > 0:
             return 0
@@ -246,6 +253,14 @@ class _Driver:
             if msg not in self.warnings:
                 self.warnings.append(msg)
             return 0
+        n_flag, n_in = int(flag.sum()), int(np.sum(flag & in_eclipse))
+        share = float(in_eclipse.mean())
+        # binomial expectation of flagged points in eclipse if outliers fall anywhere (common practice)
+        expected = n_flag * share
+        if n_in > expected + 3 * math.sqrt(max(expected * (1 - share), 1.0)):
+            self.diag["clipping_in_eclipse"] = {"flagged": n_flag, "in_eclipse": n_in, "expected": expected}
+            flag &= ~in_eclipse
+        self.diag["outliers_in_eclipse"] = self.diag.get("outliers_in_eclipse", 0) + int(np.sum(flag & in_eclipse))
         if flag.any():
             self.lc = self.lc.without(flag, "outlier")
         return int(flag.sum())
@@ -268,11 +283,11 @@ class _Driver:
         for it in range(6):
             full = self.problem(None)
             z_full = full.evaluate(vbest)[2]
-            n_clip = self.clip_outliers(z_full)
+            durations = nw1, nw2 = self.fitted_durations(vbest, durations)
+            n_clip = self.clip_outliers(z_full, window_mask(self.lc.time, vbest, nw1, nw2, flank=0.0))
             n_clip_total += n_clip
             changed = n_clip > 0
             # are the fitted eclipses (first to last contact) inside the windows, with flanks of half an eclipse?
-            durations = nw1, nw2 = self.fitted_durations(vbest, durations)
             if sel is not None and (nw1 > win[0] or nw2 > win[1]):
                 changed = True
                 win = (max(nw1, win[0]), max(nw2, win[1]))

@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 
 from ..data import LightCurve
-from ..errors import EclipsekitWarning
+from ..errors import EclipsekitWarning, FitError, InputError
 from .checks import limb_darkening_shift, limb_darkening_warning, validity_warnings
 from .derived import add_derived_samples, add_derived_values, summarise_samples
 from .driver import LeastSquaresSolution, run_least_squares, solve
@@ -63,9 +63,15 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     estimate, runner, method = estimate_uncertainties(sol, settings, rng)
     sol.diagnostics.update(estimate.diagnostics)
     values, unc, samples = derive(sol, settings, estimate, runner, method, rng)
-    warn = run_checks(sol, settings, values, unc, sol.warnings + estimate.warnings)
+    warn, status, reasons = run_checks(sol, settings, values, unc, sol.warnings + estimate.warnings)
     fit = _result(sol, initial, settings, values, unc, samples, estimate, warn, _time.perf_counter() - t_start)
-    return LightCurveSolution(fit=fit, least_squares=sol, initial=initial, settings=settings)
+    fit = dataclasses.replace(fit, status=status, status_reasons=reasons,
+                              notes=decision_notes(sol, fit), intervals=central_intervals(fit))
+    lc_sol = LightCurveSolution(fit=fit, least_squares=sol, initial=initial, settings=settings)
+    if settings.check_third_light and "third_light" not in set(sol.problem.mapping.free) | settings.fix \
+            | set(settings.values) and sol.success:
+        lc_sol = third_light_check(lc, lc_sol)
+    return lc_sol
 
 
 def start_values(lc: LightCurve, start: Any, settings: FitSettings) -> dict[str, Any]:
@@ -171,20 +177,38 @@ def derive(sol: LeastSquaresSolution, settings: FitSettings, estimate: Uncertain
 
 
 def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[str, float],
-               unc: dict[str, float | None], warn: list[str]) -> list[str]:
-    """``warn`` followed by the validity warnings, a failed convergence and the limb-darkening check's."""
-    warn = list(warn)
-    warn += validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
-                              sol.durations, sol.redchi, sol.diagnostics.get("redchi_reference", 1.0))
+               unc: dict[str, float | None], warn: list[str]) -> tuple[list[str], str, list[str]]:
+    """Warnings (``warn`` followed by the checks'), status and the reasons for it.
+
+    The status is "poor_fit" when the model does not describe the data (no clean
+    convergence, eclipse residuals above the out-of-eclipse scatter, outliers concentrated
+    in the eclipses), "caution" when a warning says the answer may be biased, else "ok".
+    """
+    warn, poor, biased = list(warn), [], []
+    for kind, msg in validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
+                                       sol.durations, sol.redchi, sol.diagnostics.get("redchi_reference", 1.0)):
+        warn.append(msg)
+        {"poor": poor, "bias": biased}.get(kind, []).append(msg)
     if not sol.success:
         warn.append(f"fit did not converge cleanly: {sol.message}")
-    free = sol.problem.mapping.free
-    if settings.check_limb_darkening and settings.ld_law != "uniform" and not {"ld1_1", "ld2_1"} & set(free):
+        poor.append(warn[-1])
+    clip = sol.diagnostics.get("clipping_in_eclipse")
+    if clip:
+        warn.append(f"{clip['in_eclipse']} of {clip['flagged']} points beyond {settings.clip_sigma} sigma lie inside "
+                    f"the eclipses (~{clip['expected']:.0f} expected by chance): kept, since the model rather than "
+                    "the data is at fault")
+        poor.append(warn[-1])
+    poor += [w for w in sol.warnings if w.startswith("outlier rejection stopped")]
+    biased += [w for w in sol.warnings if w.startswith("covariance matrix is singular")]
+    if settings.check_limb_darkening and settings.ld_law != "uniform" and not sol.problem.mapping.varies("ld1_1") \
+            and not sol.problem.mapping.varies("ld2_1"):
         sol.diagnostics["limb_darkening_check"] = shift = _limb_darkening_check(sol, settings, values, unc)
         msg = limb_darkening_warning(shift, values)
         if msg:
             warn.append(msg)
-    return warn
+            biased.append(msg)
+    status = "poor_fit" if poor else "caution" if biased else "ok"
+    return warn, status, poor + biased
 
 
 def _limb_darkening_check(sol: LeastSquaresSolution, settings: FitSettings, values: dict[str, float],
@@ -224,3 +248,81 @@ def _result(sol: LeastSquaresSolution, initial: InitialParameters, settings: Fit
                       lmfit_result=estimate.lmfit_result if estimate.lmfit_result is not None else sol.result,
                       warnings=warn, success=sol.success, message=str(sol.message), diagnostics=diag,
                       covariance=sol.covariance, n_baseline=full.n_linear, segments=full.segments, _problem=full)
+
+
+#: posterior over prior width below which a limb-darkening combination counts as measured by the data
+LD_CONSTRAINED = 0.5
+
+
+def decision_notes(sol: LeastSquaresSolution, fit: EclipseFit) -> list[str]:
+    """What the fit decided: which limb-darkening combinations the data constrain, and why an MCMC ran."""
+    pm = sol.problem.mapping
+    notes = []
+    parts = []
+    for name in pm.free:
+        if name.startswith("ld") and name in pm.priors and fit.uncertainties.get(name):
+            ratio = fit.uncertainties[name] / pm.priors[name][1]
+            verdict = "measured" if ratio < LD_CONSTRAINED else "mostly from its prior"
+            parts.append(f"{name} = {fit.values[name]:.3f} +- {fit.uncertainties[name]:.3f} ({verdict}: "
+                         f"{ratio:.2f} of the prior's width {pm.priors[name][1]:g})")
+    if parts:
+        notes.append(f"limb darkening ({fit.ld_law} law) fitted with weak priors: " + "; ".join(parts))
+    reasons = sol.diagnostics.get("errors_reasons")
+    if reasons and fit.errors_method == "mcmc":
+        notes.append("uncertainties from an MCMC because the covariance matrix cannot be trusted: "
+                     + "; ".join(reasons))
+    return notes
+
+
+def central_intervals(fit: EclipseFit) -> dict[str, tuple[float, float]]:
+    """Central 68.27% interval of every quantity that varies across the samples."""
+    out = {}
+    for name, s in fit.samples.items():
+        s = s[np.isfinite(s)]
+        if s.size > 1 and np.ptp(s) > 0:
+            lo, hi = np.percentile(s, [15.865, 84.135])
+            out[name] = (float(lo), float(hi))
+    return out
+
+
+def third_light_check(lc: LightCurve, lc_sol: LightCurveSolution) -> LightCurveSolution:
+    """Refit with third light free: adopt it when the data need it, else note what they allow.
+
+    Third light dilutes both eclipses and trades off with the inclination and the radii,
+    so holding it at 0 biases the geometry when there is any.  The refit's chi-square
+    drop (noise-scaled) above 10.83, the 0.1% point of chi-square with one degree of
+    freedom (standard tables), with third light above 3 sigma, adopts the refit (its
+    uncertainties by the same ``errors`` rule).  Otherwise a note gives the 95% upper
+    limit and how far that much third light would move r1, r2, k and i (their
+    regression on third light over the refit's samples).
+    """
+    fit, st = lc_sol.fit, lc_sol.settings
+    start = SimpleNamespace(values=dict(fit.values))
+    quick = dataclasses.replace(st, free=st.free | {"third_light"}, errors="covariance", check_third_light=False,
+                                check_limb_darkening=False, clip_sigma=None, n_samples=400, progress=False)
+    try:
+        refit = fit_light_curve(lc_sol.least_squares.lc, start, quick).fit
+    except (FitError, InputError):
+        return lc_sol
+    l3, sd = refit.values["third_light"], refit.uncertainties.get("third_light")
+    if not sd:
+        return lc_sol
+    n = len(refit.lc)
+    dchi2 = (fit.redchi * (n - fit.n_free) - refit.redchi * (n - refit.n_free)) / max(refit.redchi, 1e-300)
+    if dchi2 > 10.83 and l3 > 3 * sd:
+        full = dataclasses.replace(st, free=st.free | {"third_light"}, check_third_light=False)
+        adopted = fit_light_curve(lc, start, full)
+        note = (f"third light fitted: the data need it (L3 = {l3:.3f} +- {sd:.3f}, chi-square drop {dchi2:.0f} "
+                "when it is freed)")
+        return dataclasses.replace(adopted, fit=dataclasses.replace(adopted.fit, notes=adopted.fit.notes + [note]))
+    limit = max(0.0, l3 + 1.96 * sd)
+    s = refit.samples
+    moves = []
+    for name, label in (("frac_radius_primary", "r1"), ("frac_radius_secondary", "r2"), ("radius_ratio", "k")):
+        slope = np.cov(s[name], s["third_light"])[0, 1] / np.var(s["third_light"], ddof=1)
+        moves.append(f"{label} by {100 * slope * limit / fit.values[name]:+.1f}%")
+    slope = np.cov(s["inclination"], s["third_light"])[0, 1] / np.var(s["third_light"], ddof=1)
+    moves.append(f"i by {slope * limit:+.2f} deg")
+    note = (f"third light held at 0; the data allow up to L3 = {limit:.3f} (95%, L3 = {l3:.3f} +- {sd:.3f} when "
+            f"freed), which would move " + ", ".join(moves) + " (free it with --free third_light)")
+    return dataclasses.replace(lc_sol, fit=dataclasses.replace(fit, notes=fit.notes + [note]))

@@ -256,7 +256,8 @@ class Problem:
         if not ok.any():
             return lp
         v = pm.physical_rows(x[ok])
-        m = self.model_rows(v)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):  # failing rows become -inf below
+            m = self.model_rows(v)
         good = np.all(np.isfinite(m), axis=1)
         chi2, logdet = self.normal_solution_rows(np.where(good[:, None], m, 1.0))
         prior = np.zeros(good.size)
