@@ -44,6 +44,7 @@ from astropy import units as u
 
 from . import _occultation as _occ
 from .errors import GeometryError, InputError
+from .limb_darkening import TYPICAL
 from ._validate import as_float, as_times
 from .orbit import OrbitGeometry, _inclination, _kepler_kernel, _period, eccentricity_omega, orbit_geometry
 
@@ -61,7 +62,8 @@ def _ld(ld_law: str, coeffs, name: str) -> tuple[float, ...]:
     """Validated limb-darkening coefficients as a tuple of floats."""
     if ld_law not in LD_LAWS:
         raise InputError(f"`ld_law` must be one of {sorted(LD_LAWS)}, got {ld_law!r}")
-    coeffs = () if coeffs is None else tuple(np.atleast_1d(np.asarray(coeffs, dtype=float)).tolist())
+    # no coefficients: the law's typical ones, the single default of the model and the fit
+    coeffs = TYPICAL[ld_law] if coeffs is None else tuple(np.atleast_1d(np.asarray(coeffs, dtype=float)).tolist())
     n = LD_LAWS[ld_law]
     if len(coeffs) != n:
         raise InputError(f"`{name}` needs {n} coefficient(s) for the {ld_law!r} law, got {len(coeffs)}")
@@ -174,7 +176,7 @@ def light_ratio(radius_ratio: float, surface_brightness_ratio: float) -> float:
     return j * k * k
 
 
-def occulted_fraction(z, p: float, ld_law: str = "quadratic", coeffs=(0.4, 0.2)):
+def occulted_fraction(z, p: float, ld_law: str = "quadratic", coeffs=None):
     """Fraction of a limb-darkened star's flux hidden by an opaque disc.
 
     Parameters
@@ -186,8 +188,9 @@ def occulted_fraction(z, p: float, ld_law: str = "quadratic", coeffs=(0.4, 0.2))
         partial, annular, total and grazing eclipses are all covered).
     ld_law : {"uniform", "linear", "quadratic", "power-2"}
         I(mu)/I(1) = 1; 1 - u (1 - mu); 1 - u1 (1 - mu) - u2 (1 - mu)^2; 1 - c (1 - mu^alpha).
-    coeffs : tuple
-        () / (u,) / (u1, u2) / (c, alpha).
+    coeffs : tuple, optional
+        () / (u,) / (u1, u2) / (c, alpha); default the law's typical coefficients
+        (:data:`eclipsekit.limb_darkening.TYPICAL`).
 
     Returns
     -------
@@ -461,8 +464,8 @@ def _flux_sets(t: np.ndarray, sets: list, ld_law: str, texp: float, nsub: int) -
 
 def model_flux(time, *, period, t0, radius_sum: float, radius_ratio: float, inclination,
                surface_brightness_ratio: float, ecosw: float = 0.0, esinw: float = 0.0,
-               third_light: float = 0.0, ld_law: str = "quadratic", ld_primary=(0.4, 0.2),
-               ld_secondary=(0.4, 0.2), exposure_time=0.0, supersample: int = 1) -> np.ndarray:
+               third_light: float = 0.0, ld_law: str = "quadratic", ld_primary=None,
+               ld_secondary=None, exposure_time=0.0, supersample: int = 1) -> np.ndarray:
     """Normalised flux of a detached eclipsing binary (1 out of eclipse).
 
     Parameters
@@ -485,8 +488,9 @@ def model_flux(time, *, period, t0, radius_sum: float, radius_ratio: float, incl
         Fraction of the out-of-eclipse flux from neither star, 0 <= l3 < 1.
     ld_law : {"uniform", "linear", "quadratic", "power-2"}
         Limb-darkening law of both stars.
-    ld_primary, ld_secondary : tuple
-        Coefficients of the law for star 1 and star 2.
+    ld_primary, ld_secondary : tuple, optional
+        Coefficients of the law for star 1 and star 2; default the law's typical
+        coefficients (:data:`eclipsekit.limb_darkening.TYPICAL`: quadratic 0.4, 0.25).
     exposure_time : float or Quantity
         Integration time of each point (days); 0 for instantaneous.
     supersample : int
@@ -555,8 +559,8 @@ def _per_set(value, name: str, n_sets: int | None, coefficients: bool = False) -
 
 
 def model_flux_batch(time, *, period, t0, radius_sum, radius_ratio, inclination, surface_brightness_ratio,
-                     ecosw=0.0, esinw=0.0, third_light=0.0, ld_law: str = "quadratic", ld_primary=(0.4, 0.2),
-                     ld_secondary=(0.4, 0.2), exposure_time=0.0, supersample: int = 1) -> np.ndarray:
+                     ecosw=0.0, esinw=0.0, third_light=0.0, ld_law: str = "quadratic", ld_primary=None,
+                     ld_secondary=None, exposure_time=0.0, supersample: int = 1) -> np.ndarray:
     """:func:`model_flux` for M parameter sets on the same times, in one vectorised pass.
 
     For ensemble samplers that propose all walkers at once (e.g. emcee's ``vectorize=True``):
@@ -620,8 +624,8 @@ def model_flux_batch(time, *, period, t0, radius_sum, radius_ratio, inclination,
 
 def eclipse_properties(*, period, radius_sum: float, radius_ratio: float, inclination,
                        surface_brightness_ratio: float, ecosw: float = 0.0, esinw: float = 0.0,
-                       third_light: float = 0.0, ld_law: str = "quadratic", ld_primary=(0.4, 0.2),
-                       ld_secondary=(0.4, 0.2)) -> dict:
+                       third_light: float = 0.0, ld_law: str = "quadratic", ld_primary=None,
+                       ld_secondary=None) -> dict:
     """Depths, durations and secondary phase implied by a set of model parameters.
 
     Returns

@@ -489,6 +489,7 @@ def test_model_flux_against_exact_path_at_large_times():
     # slow exact path computed on times relative to t0 (direct 256-node quadrature at separations from
     # this package's sky_separation with t0 = 0: an internal consistency check) at the 1e-11 level
     from eclipsekit import _occultation as occ
+    from eclipsekit.orbit import sky_separation
     kw = dict(BASE, t0=2460101.3217, period=3.4713, ecosw=0.012, esinw=-0.035, radius_sum=0.185, radius_ratio=0.78,
               inclination=88.1)
     t = kw["t0"] + np.linspace(-20.0, 20.0, 40001)

@@ -34,3 +34,69 @@ def test_recovery_with_no_options(name):
         assert abs(value - tr[key]) < 3 * sigma, f"{name} {key}: {value} vs {tr[key]} +- {sigma}"
         assert abs(value / tr[key] - 1) < 0.01, f"{name} {key}: {value} vs {tr[key]}"
     assert fit.status == "ok", fit.warnings
+
+
+def test_light_ratio_prior_narrows_k_as_linear_propagation_predicts():
+    # a Gaussian prior adds its precision to the data's: P = C^-1 + g g^T / sigma_L^2, g = dL/dx with
+    # L = J k^2 (our light-ratio definition), so dL/dJ = k^2, dL/dk = 2 J k (linear error propagation of a
+    # Gaussian prior; e.g. Press et al. 2007, Numerical Recipes 3rd ed., sect. 15.6 and 15.4)
+    name = "partial"
+    t, f, e = light_curve_arrays(name, 3)
+    lc = ek.LightCurve(t, f, e)
+    base = ek.fit_eclipses(lc, progress=False, seed=3, errors="covariance", check_third_light=False)
+    sigma_l = 0.25 * base.uncertainties["light_ratio"]
+    prior = ek.fit_eclipses(lc, progress=False, seed=3, errors="covariance", check_third_light=False,
+                            priors={"light_ratio": (truth(name)["light_ratio"], sigma_l)})
+    free = base.free
+    k, J = base.values["radius_ratio"], base.values["surface_brightness_ratio"]
+    g = np.zeros(len(free))
+    g[free.index("radius_ratio")] = 2 * J * k
+    g[free.index("surface_brightness_ratio")] = k * k
+    post = np.linalg.inv(np.linalg.inv(base.covariance) + np.outer(g, g) / sigma_l ** 2)
+    expected = np.sqrt(post[free.index("radius_ratio"), free.index("radius_ratio")])
+    assert prior.uncertainties["radius_ratio"] < 0.8 * base.uncertainties["radius_ratio"]  # the prior matters
+    assert prior.uncertainties["radius_ratio"] == pytest.approx(expected, rel=0.2)  # issue's 20% criterion
+    assert prior.priors["light_ratio"] == (truth(name)["light_ratio"], sigma_l)
+
+
+def test_wrong_fixed_inclination_keeps_eclipse_points_and_is_not_ok():
+    # inclination held 1.5 deg from the truth: the model cannot fit the eclipses, and the residuals there are
+    # large; clipping must not remove the eclipse points to make the fit look good
+    name = "partial"
+    t, f, e = light_curve_arrays(name, 4)
+    lc = ek.LightCurve(t, f, e)
+    fit, messages = _fit(name, seed=4, fixed={"inclination": truth(name)["inclination"] - 1.5})
+    P, t0 = SYSTEMS[name]["period"], SYSTEMS[name]["t0"]
+    phase = ((lc.time - t0) / P + 0.5) % 1 - 0.5
+    near = (np.abs(phase) < 0.04) | (np.abs(np.abs(phase) - 0.5) < 0.04)  # within both eclipses (width ~0.06)
+    kept = np.isin(lc.time[near], fit.lc.time)
+    assert kept.all(), f"{(~kept).sum()} eclipse points removed"
+    assert fit.status == "poor_fit", fit.status_reasons
+    assert "inclination" in fit.fixed and fit.values["inclination"] == truth(name)["inclination"] - 1.5
+
+
+def test_fixed_limb_darkening_by_name_is_held_and_others_stay_fitted():
+    # naming one star's coefficients holds them; the other star keeps its fitted combinations
+    fit, _ = _fit("total", fixed={"ld1_1": 0.28, "ld1_2": 0.30})
+    assert fit.values["ld1_1"] == 0.28 and fit.values["ld1_2"] == 0.30
+    assert "ld1_1" in fit.fixed and "ld2_sum" in fit.free and "ld2_1" not in fit.fixed
+    assert fit.uncertainties["ld2_1"] is not None
+
+
+@pytest.mark.slow
+def test_partial_coverage_with_defaults():
+    # honest 1-sigma intervals contain the truth in 68.3% of realisations; binomial scatter over 50 is 6.6%,
+    # and the criterion is 68 +- 8%
+    name, n = "partial", 50
+    tr = truth(name)
+    inside = {k: 0 for k in GEOMETRY}
+    for seed in range(100, 100 + n):
+        t, f, e = light_curve_arrays(name, seed, n_orbits=2)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            fit = ek.fit_eclipses(ek.LightCurve(t, f, e), progress=False, seed=seed, check_third_light=False)
+        for k in GEOMETRY:
+            lo, hi = fit.intervals[k]
+            inside[k] += lo <= tr[k] <= hi
+    for k in GEOMETRY:
+        assert 0.60 <= inside[k] / n <= 0.76, f"{k}: {inside[k]} of {n} inside 1 sigma"

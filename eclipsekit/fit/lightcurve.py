@@ -247,7 +247,8 @@ def _result(sol: LeastSquaresSolution, initial: InitialParameters, settings: Fit
                       exposure_time=settings.exposure_time, supersample=settings.supersample,
                       lmfit_result=estimate.lmfit_result if estimate.lmfit_result is not None else sol.result,
                       warnings=warn, success=sol.success, message=str(sol.message), diagnostics=diag,
-                      covariance=sol.covariance, n_baseline=full.n_linear, segments=full.segments, _problem=full)
+                      covariance=sol.covariance, n_baseline=full.n_linear, segments=full.segments, _problem=full,
+                      priors=dict(pm.priors), fixed=[n for n in parameter_names(settings.ld_law) if not pm.varies(n)])
 
 
 #: posterior over prior width below which a limb-darkening combination counts as measured by the data
