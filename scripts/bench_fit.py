@@ -7,10 +7,18 @@ a slow drift, a detached eclipsing binary with a mildly eccentric orbit.  Times:
 * the least-squares fit from the period-search start (target < 5 s), median of repeats;
 * the same fit done "the plain way" in the same run (lmfit with absolute t0, the
   baseline coefficients as ordinary lmfit parameters, all points), for the ratio;
-* a 32-walker x 2,000-step MCMC (target < 3 minutes);
-* optionally residual permutation (``--permutation``).
+* a 32-walker x 2,000-step MCMC (target < 45 s);
+* optionally residual permutation (``--permutation``);
+* with ``--previous REV`` (default: the 0.1 release commit), the least-squares fit with limb
+  darkening free (``free=["limb_darkening"]``) and the same MCMC by the implementation at
+  REV, run in the same session from a temporary git worktree, for the ratios.
+
+The default fit frees the limb darkening of both stars (decorrelated combinations with weak
+priors), so its least-squares time is compared with the previous implementation's fit with
+all four coefficients free.
 
 Usage: python scripts/bench_fit.py [--repeats 3] [--steps 2000] [--walkers 32] [--no-mcmc] [--permutation]
+       [--previous REV | --no-previous]
 """
 
 from __future__ import annotations
@@ -24,10 +32,13 @@ import warnings
 import lmfit
 import numpy as np
 
+import eclipsekit as ek
 from eclipsekit import eclipse
 from eclipsekit.data import LightCurve
 from eclipsekit.errors import EclipsekitWarning
-from eclipsekit.fit import fit_eclipses
+
+fit_eclipses = ek.fit_eclipses  # the public name, the same in every version (see --previous)
+PREVIOUS = "1177892"  # the 0.1 release, before the fit package and the fitted limb darkening
 
 TRUTH = dict(period=3.4713, t0=2460101.3217, radius_sum=0.185, radius_ratio=0.78, inclination=88.1,
              surface_brightness_ratio=0.62, ecosw=0.012, esinw=-0.035, third_light=0.0)
@@ -75,6 +86,48 @@ def plain_fit(lc: LightCurve, start: dict) -> tuple[float, int, dict]:
     return time.perf_counter() - t1, n[0], res.params.valuesdict()
 
 
+def previous_figures(rev: str, args: argparse.Namespace) -> dict:
+    """Least-squares (limb darkening free) and MCMC times of the implementation at ``rev``, in a subprocess."""
+    import json
+    import os
+    import subprocess
+    import tempfile
+
+    repo = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    tmp = tempfile.mkdtemp(prefix="eclipsekit-previous-")
+    subprocess.run(["git", "worktree", "add", "--detach", tmp, rev], cwd=repo, check=True, capture_output=True)
+    try:
+        cmd = [sys.executable, os.path.abspath(__file__), "--as-previous", "--repeats", str(args.repeats),
+               "--steps", str(args.steps), "--walkers", str(args.walkers)] + (["--no-mcmc"] if args.no_mcmc else [])
+        out = subprocess.run(cmd, env={**os.environ, "PYTHONPATH": tmp}, capture_output=True, text=True, check=True)
+        return json.loads(out.stdout.strip().splitlines()[-1])
+    finally:
+        subprocess.run(["git", "worktree", "remove", "--force", tmp], cwd=repo, capture_output=True)
+
+
+def as_previous(args: argparse.Namespace) -> int:
+    """The figures of an older implementation (run with PYTHONPATH pointing at it), as one JSON line."""
+    import json
+
+    from eclipsekit.period import find_period
+
+    lc = make_sector()
+    search = find_period(lc, progress=False)
+    times = []
+    for _ in range(args.repeats):
+        t1 = time.perf_counter()
+        fit_eclipses(lc, search, progress=False, free=["limb_darkening"], **LD)
+        times.append(time.perf_counter() - t1)
+    out = {"lsq": statistics.median(times)}
+    if not args.no_mcmc:
+        t1 = time.perf_counter()
+        mc = fit_eclipses(lc, search, errors="mcmc", mcmc_walkers=args.walkers, mcmc_steps=args.steps,
+                          progress=False, seed=3, **LD)
+        out.update(mcmc=time.perf_counter() - t1, mcmc_sampling=mc.diagnostics["mcmc_seconds"])
+    print(json.dumps(out))
+    return 0
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeats", type=int, default=3)
@@ -82,8 +135,14 @@ def main(argv=None) -> int:
     ap.add_argument("--walkers", type=int, default=32)
     ap.add_argument("--no-mcmc", action="store_true")
     ap.add_argument("--permutation", action="store_true")
+    ap.add_argument("--previous", default=PREVIOUS, help="git revision of the implementation to compare with")
+    ap.add_argument("--no-previous", action="store_true")
+    ap.add_argument("--as-previous", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
-    warnings.simplefilter("ignore", EclipsekitWarning)
+    warnings.simplefilter("ignore")
+    if args.as_previous:
+        return as_previous(args)
+    prev = None if args.no_previous else previous_figures(args.previous, args)
     lc = make_sector()
     print(f"sector: {len(lc)} points over {lc.baseline:.1f} d, 1 mmag noise; truth {TRUTH}")
 
@@ -149,6 +208,9 @@ def main(argv=None) -> int:
           f"(target < 5 s), {statistics.median(evals):.0f} model evaluations, points fitted "
           f"{fit.diagnostics['n_fitted']}/{len(lc)}, attempts {len(fit.diagnostics['attempts'])}")
     print(f"RESULT ratio plain-way fit / eclipsekit fit: {t_plain / t_lsq:.2f}")
+    if prev:
+        print(f"RESULT previous implementation ({args.previous}), limb darkening free, same run: "
+              f"{prev['lsq']:.2f} s; ratio previous / now {prev['lsq'] / t_lsq:.2f}")
 
     if args.permutation:
         t1 = time.perf_counter()
@@ -166,12 +228,15 @@ def main(argv=None) -> int:
         n_ev = mc.diagnostics["n_model_evaluations"]
         print(mc.summary())
         print(f"RESULT MCMC {d['walkers']} walkers x {d['steps']} steps: {t_mc:.1f} s total "
-              f"({mc.diagnostics['mcmc_seconds']:.1f} s sampling, target < 180 s), {n_ev} model evaluations, "
+              f"({mc.diagnostics['mcmc_seconds']:.1f} s sampling, target < 45 s), {n_ev} model evaluations, "
               f"{mc.diagnostics['mcmc_seconds'] / (d['walkers'] * d['steps']) * 1e3:.2f} ms per step; "
               f"max tau {max(d['autocorr_time'].values()):.0f} steps, chain/tau {d['chain_over_tau']:.0f}, "
               f"acceptance {d['acceptance_fraction']:.2f}")
         for k in ("radius_sum", "radius_ratio", "inclination"):
             print(f"RESULT   {k}: covariance +-{fit.uncertainties[k]:.2g}, MCMC +-{mc.uncertainties[k]:.2g}")
+        if prev and "mcmc" in prev:
+            print(f"RESULT previous implementation ({args.previous}) MCMC, same run: {prev['mcmc']:.1f} s total "
+                  f"({prev['mcmc_sampling']:.1f} s sampling); ratio previous / now {prev['mcmc'] / t_mc:.2f}")
     return 0
 
 
