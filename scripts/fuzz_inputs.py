@@ -28,6 +28,7 @@ import argparse
 import json
 import os
 import select
+import signal
 import subprocess
 import sys
 import time
@@ -39,7 +40,7 @@ from pathlib import Path
 import numpy as np
 
 #: Trial periods a fuzzed search may have (keeps each search well under a second).
-GRID_BUDGET = 10_000
+GRID_BUDGET = 5_000
 #: Options of the fit: the limb-darkening plausibility check is skipped, the fit
 #: windows are used (same model, fewer points): both only save time.
 FIT_OPTIONS = {"progress": False, "check_limb_darkening": False, "window": True}
@@ -50,7 +51,7 @@ FIT_OPTIONS = {"progress": False, "check_limb_darkening": False, "window": True}
 # ---------------------------------------------------------------------------------------
 def base_light_curve(rng: np.random.Generator) -> dict:
     """A detached-binary-like light curve: trapezoid primary and secondary eclipses, noise."""
-    n = int(rng.integers(200, 700))
+    n = int(rng.integers(150, 500))
     span = float(rng.uniform(6.0, 20.0))
     period = float(rng.uniform(0.6, 3.0))
     t = np.sort(rng.uniform(0.0, span, n)) + float(rng.choice([0.0, 2450000.0, 58000.0]))
@@ -264,15 +265,21 @@ def run_case(path: str, period: float, fit: bool = True) -> tuple[str, str, dict
     return "success", "", options
 
 
-def worker(seed: int, folder: str, fit: bool = True) -> None:
-    """Read case indices from stdin; for each print START and then DONE with its outcome (JSON)."""
+def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0) -> None:
+    """Read case indices from stdin; for each print START and then DONE with its outcome (JSON).
+
+    An input that uses more than ``cpu_limit`` seconds of CPU time ends the worker with
+    SIGVTALRM (CPU time, not wall time: the machine may be shared).
+    """
     for line in sys.stdin:
         index = int(line)
         case = make_case(seed, index)
         path = os.path.join(folder, f"case_{os.getpid()}.csv")
         Path(path).write_text(case["text"])
         print(json.dumps({"start": index}), flush=True)
+        signal.setitimer(signal.ITIMER_VIRTUAL, cpu_limit)
         outcome, detail, options = run_case(path, case["period"], fit)
+        signal.setitimer(signal.ITIMER_VIRTUAL, 0.0)
         print(json.dumps({"done": index, "outcome": outcome, "detail": detail,
                           "options": {k: v for k, v in options.items() if k != "traceback"},
                           "traceback": options.get("traceback", "")}), flush=True)
@@ -288,7 +295,8 @@ def run_batch(seed: int, indices: list[int], folder: str, timeout: float, fit: b
     todo = list(indices)
     env = {**os.environ, "MPLBACKEND": "Agg"}
     while todo:
-        command = [sys.executable, __file__, "--worker", "--seed", str(seed), "--tmp", folder]
+        command = [sys.executable, __file__, "--worker", "--seed", str(seed), "--tmp", folder,
+                   "--timeout", str(timeout)]
         proc = subprocess.Popen(command + ([] if fit else ["--no-fit"]),
                                 stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL,
                                 text=True, env=env)
@@ -296,22 +304,25 @@ def run_batch(seed: int, indices: list[int], folder: str, timeout: float, fit: b
         proc.stdin.close()
         current, started = None, time.monotonic()
         while True:
-            limit = timeout + (30.0 if current is None else 0.0)  # the first input also waits for imports
+            # the worker stops itself after `timeout` s of CPU; wall time is a backstop on a busy machine
+            limit = 10.0 * timeout + (60.0 if current is None else 0.0)
             ready, _, _ = select.select([proc.stdout], [], [], max(0.0, limit - (time.monotonic() - started)))
             if not ready:
                 proc.kill()
                 proc.wait()
                 if current is None:  # the worker itself hung before any input
                     current = todo[0]
-                results.append({"index": current, "outcome": "crash", "detail": f"hang over {timeout:g} s"})
+                results.append({"index": current, "outcome": "crash", "detail": f"hang over {limit:g} s"})
                 todo = todo[todo.index(current) + 1:]
                 break
             line = proc.stdout.readline()
             if not line:  # the worker ended: finished, or killed by a signal while on `current`
                 code = proc.wait()
                 if current is not None:
-                    results.append({"index": current, "outcome": "crash",
-                                    "detail": f"signal {-code}" if code < 0 else f"worker exit {code}"})
+                    detail = f"signal {-code}" if code < 0 else f"worker exit {code}"
+                    if code == -signal.SIGVTALRM:
+                        detail = f"hang over {timeout:g} s of CPU"
+                    results.append({"index": current, "outcome": "crash", "detail": detail})
                     todo = todo[todo.index(current) + 1:]
                 elif code != 0:
                     results.append({"index": todo[0], "outcome": "crash", "detail": f"worker exit {code}"})
@@ -383,7 +394,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--n", type=int, default=10_000, help="number of inputs (default 10000)")
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument("--workers", type=int, default=2, help="parallel worker processes (default 2)")
-    parser.add_argument("--timeout", type=float, default=60.0, help="seconds per input before it counts as a hang")
+    parser.add_argument("--timeout", type=float, default=30.0,
+                        help="seconds of CPU time per input before it counts as a hang (default 30)")
     parser.add_argument("--out", type=Path, default=Path("fuzz_out"), help="folder for reproducers")
     parser.add_argument("--start", type=int, default=0, help="first input (to continue a run)")
     parser.add_argument("--no-fit", action="store_true", help="stop after the period search (quick)")
@@ -392,7 +404,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--tmp", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.worker:
-        worker(args.seed, args.tmp, not args.no_fit)
+        worker(args.seed, args.tmp, not args.no_fit, args.timeout)
         return 0
     if args.only is not None:
         case = make_case(args.seed, args.only)
