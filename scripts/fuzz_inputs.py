@@ -265,11 +265,12 @@ def run_case(path: str, period: float, fit: bool = True) -> tuple[str, str, dict
     return "success", "", options
 
 
-def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0) -> None:
+def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0, kill_on: int | None = None) -> None:
     """Read case indices from stdin; for each print START and then DONE with its outcome (JSON).
 
     An input that uses more than ``cpu_limit`` seconds of CPU time ends the worker with
-    SIGVTALRM (CPU time, not wall time: the machine may be shared).
+    SIGVTALRM (CPU time, not wall time: the machine may be shared).  ``kill_on``: an
+    input on which the worker kills itself with SIGSEGV (to test the harness).
     """
     for line in sys.stdin:
         index = int(line)
@@ -277,6 +278,8 @@ def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0) ->
         path = os.path.join(folder, f"case_{os.getpid()}.csv")
         Path(path).write_text(case["text"])
         print(json.dumps({"start": index}), flush=True)
+        if index == kill_on:
+            os.kill(os.getpid(), signal.SIGSEGV)
         signal.setitimer(signal.ITIMER_VIRTUAL, cpu_limit)
         outcome, detail, options = run_case(path, case["period"], fit)
         signal.setitimer(signal.ITIMER_VIRTUAL, 0.0)
@@ -288,7 +291,8 @@ def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0) ->
 # ---------------------------------------------------------------------------------------
 # batches in worker processes
 # ---------------------------------------------------------------------------------------
-def run_batch(seed: int, indices: list[int], folder: str, timeout: float, fit: bool = True) -> list[dict]:
+def run_batch(seed: int, indices: list[int], folder: str, timeout: float, fit: bool = True,
+              kill_on: int | None = None) -> list[dict]:
     """Outcomes of ``indices`` from worker processes; a signal or a hang ends a worker and is
     recorded against the input it was working on, and a new worker takes the rest."""
     results: list[dict] = []
@@ -297,7 +301,8 @@ def run_batch(seed: int, indices: list[int], folder: str, timeout: float, fit: b
     while todo:
         command = [sys.executable, __file__, "--worker", "--seed", str(seed), "--tmp", folder,
                    "--timeout", str(timeout)]
-        proc = subprocess.Popen(command + ([] if fit else ["--no-fit"]),
+        command += ([] if fit else ["--no-fit"]) + ([] if kill_on is None else ["--kill-on", str(kill_on)])
+        proc = subprocess.Popen(command,
                                 stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL,
                                 text=True, env=env)
         proc.stdin.write("".join(f"{i}\n" for i in todo))
@@ -402,9 +407,10 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--only", type=int, help="run this one case here, traceback shown")
     parser.add_argument("--worker", action="store_true", help=argparse.SUPPRESS)
     parser.add_argument("--tmp", help=argparse.SUPPRESS)
+    parser.add_argument("--kill-on", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.worker:
-        worker(args.seed, args.tmp, not args.no_fit, args.timeout)
+        worker(args.seed, args.tmp, not args.no_fit, args.timeout, args.kill_on)
         return 0
     if args.only is not None:
         case = make_case(args.seed, args.only)
