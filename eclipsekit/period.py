@@ -1158,7 +1158,10 @@ def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) 
     except Exception as exc:  # pragma: no cover - defensive, reported not hidden
         warnings.warn(f"trapezoid refinement failed ({exc}); using the box-search values", EclipsekitWarning)
         fit = None
-    if fit is not None and fit["success"] and np.isfinite(fit["period_err"]) and fit["period_err"] > 0:
+    # the fit's period is bounded to ±4 grid steps (see _fit_trapezoids): an error wider than that
+    # window means the data do not constrain it there (a near-singular covariance), so fall back
+    window = 4 * df_local * ev["period"] ** 2
+    if fit is not None and fit["success"] and np.isfinite(fit["period_err"]) and 0 < fit["period_err"] < window:
         P, Perr = fit["period"], fit["period_err"]
         # epoch nearest the middle of the in-eclipse data: least correlated with P
         tmid = float(np.average(t[in1])) if in1.any() else 0.5 * (t[0] + t[-1])

@@ -65,7 +65,7 @@ def base_light_curve(rng: np.random.Generator) -> dict:
 
 
 def _rows(rng, n, most=10):
-    return rng.choice(n, size=int(rng.integers(1, min(most, n) + 1)), replace=False)
+    return rng.choice(n, size=int(rng.integers(1, max(1, min(most, n)) + 1)), replace=False)
 
 
 _EXTREME = [0.0, -0.0, 5e-324, 1e-300, 1e-200, 1e-60, 1e-12, 1e12, 1e60, 1e200, 1e300, 1.7e308, -1e-300,
@@ -82,7 +82,7 @@ def _err_many_extreme(rng, c):
     if c["err"] is None:  # after err_drop
         return
     n = c["err"].size
-    c["err"][rng.choice(n, size=int(rng.integers(n // 20, n // 2)), replace=False)] = rng.choice(
+    c["err"][rng.choice(n, size=int(rng.integers(n // 20, n // 2 + 1)), replace=False)] = rng.choice(
         [1e-200, 1e-20, 1e20, 1e308])
 
 
@@ -159,7 +159,7 @@ def _flux_scale(rng, c):
 
 def _flux_missing(rng, c):
     n = c["flux"].size
-    c["flux"][rng.choice(n, size=int(rng.integers(1, n)), replace=False)] = np.nan
+    c["flux"][rng.choice(n, size=int(rng.integers(1, n + 1)), replace=False)] = np.nan
 
 
 def _few_rows(rng, c):
@@ -194,8 +194,9 @@ def make_case(seed: int, index: int) -> dict:
     rng = np.random.default_rng([seed, index])
     case = base_light_curve(rng)
     names = list(rng.choice(sorted(MUTATIONS), size=int(rng.choice([1, 1, 2, 3])), replace=False))
-    for name in names:
-        MUTATIONS[name](rng, case)
+    with np.errstate(all="ignore"):  # mutations overflow on purpose
+        for name in names:
+            MUTATIONS[name](rng, case)
     case["mutations"] = names
     case["text"] = to_csv(case)
     return case

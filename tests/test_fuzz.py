@@ -34,6 +34,13 @@ def test_cases_are_reproducible(fuzz):
     assert fuzz.make_case(5, 18)["text"] != a["text"]
 
 
+def test_every_mutation_can_follow_any_other(fuzz):
+    # the generator itself must not fail (e.g. a mutation on a case that `few_rows` left with 1 row)
+    for index in range(3000):
+        case = fuzz.make_case(7, index)
+        assert case["text"].count("\n") == case["time"].size + 1
+
+
 def test_sample_through_period_search(fuzz, tmp_path):
     # seed 101, inputs 0-159, two worker processes; reproducers of any crash go to tmp_path
     results = fuzz.run(160, 101, 2, tmp_path, timeout=30.0, batch=80, progress=False, fit=False)
