@@ -27,6 +27,7 @@ __all__ = [
     "Q_MAX",
     "min_duty_cycle",
     "frequency_grid",
+    "grid_size",
     "period_bands",
     "bin_in_time",
     "trial_durations",
@@ -82,6 +83,27 @@ def frequency_grid(min_period: float, max_period: float, baseline: float, oversa
     if freq.size == 0 or freq[-1] < f_hi:
         freq = np.append(freq, f_hi)
     return freq
+
+
+def grid_size(min_period: float, max_period: float, baseline: float, oversample: float) -> float:
+    """Number of trial frequencies :func:`frequency_grid` would make, without making them.
+
+    The same two pieces (uniform in ``f^(1/3)``, then uniform in ``f``) counted from
+    their steps; ``inf`` when an argument makes the grid unbounded (e.g. a zero
+    baseline or a vanishing ``min_period``).  Lets a caller refuse a grid too large to
+    allocate before numpy is asked to.
+    """
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        f_lo, f_hi = np.float64(1.0) / max_period, np.float64(1.0) / min_period
+        f_cap = (Q_CAP / Q0) ** 1.5
+        n = 1.0
+        a, b = f_lo, min(f_hi, f_cap)
+        if b > a:
+            n += (b ** (1 / 3) - a ** (1 / 3)) * 3.0 * oversample * baseline / Q0
+        a2 = max(f_lo, f_cap)
+        if f_hi > a2:
+            n += (f_hi - a2) * oversample * baseline / Q_CAP
+    return float(n) if np.isfinite(n) else float("inf")
 
 
 def period_bands(freq: np.ndarray, ratio: float = 2.0) -> list[slice]:

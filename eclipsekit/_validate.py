@@ -16,7 +16,28 @@ from astropy import units as u
 
 from .errors import InputError
 
-__all__ = ["to_unit", "as_float", "as_times", "finite_or_none"]
+__all__ = ["to_unit", "as_float", "as_times", "finite_or_none", "light_curve_range_problem",
+           "MAX_ABS_TIME", "MAX_TIME_SPAN", "ERR_FACTOR", "FLUX_FACTOR", "VALUE_LIMIT"]
+
+# Numerical ranges of light-curve values.  The kernels square, invert and sum these
+# values (weights 1/σ², χ² sums, time binning, phase folding); inside these ranges all
+# of that stays finite and resolved in float64 (largest ~1.8e308, smallest normal ~2.2e-308).
+#: Largest |time| in days: 1e8 d (~270,000 years) from the zero of any time system in use
+#: (JD, MJD, BJD_TDB, offsets); larger values are fill values, not dates.  At 1e8 d the
+#: float64 spacing is 1.5e-8 d (1.3 ms).
+MAX_ABS_TIME = 1e8
+#: Longest span of one light curve in days (~274 years, longer than any photometric
+#: archive).  It also bounds the trial-period grid, whose size grows with the span.
+MAX_TIME_SPAN = 1e5
+#: Flux errors must lie within this factor of their median: a point 1e3 times more
+#: precise than the rest would carry a million times the weight.
+ERR_FACTOR = 1e3
+#: Fluxes above this factor times the median |flux| are not measurements of a star
+#: (fill values, unit slips); the readers reject such rows.
+FLUX_FACTOR = 1e3
+#: Absolute bounds: |flux| <= VALUE_LIMIT and 1/VALUE_LIMIT <= flux_err <= VALUE_LIMIT, so
+#: that weights (<= 1e100), weighted squares (<= 1e200) and their sums stay finite.
+VALUE_LIMIT = 1e50
 
 # How a unit is named in messages: (what the argument must be, what a plain number means).
 _UNIT_WORDS = {
@@ -155,3 +176,45 @@ def finite_or_none(value: Any) -> float | None:
     except (TypeError, ValueError):
         return None
     return value if math.isfinite(value) else None
+
+
+def light_curve_range_problem(time: np.ndarray, flux: np.ndarray,
+                              flux_err: np.ndarray) -> tuple[int, str, str] | None:
+    """The first value of a light curve outside the numerical ranges above, or None.
+
+    ``time``, ``flux`` and ``flux_err`` are finite 1-D float arrays of one length with
+    ``flux_err > 0`` (checked before).  The checks, in order: ``|time| <= MAX_ABS_TIME``;
+    span ``<= MAX_TIME_SPAN`` (the time farthest from the median is named);
+    ``|flux| <= VALUE_LIMIT``; ``1/VALUE_LIMIT <= flux_err <= VALUE_LIMIT``; and
+    largest/smallest error ``<= ERR_FACTOR**2`` (a bound that every subset keeps, so a
+    light curve with rows removed stays valid; the error farthest from the median, in
+    ratio, is named).
+
+    Returns
+    -------
+    (index, role, text) or None
+        Index of the offending value, which array (``"time"``, ``"flux"``,
+        ``"flux_err"``) and what is wrong with it and what to do, for a one-line message.
+    """
+    bad = np.flatnonzero(np.abs(time) > MAX_ABS_TIME)
+    if bad.size:
+        return int(bad[0]), "time", (f"time {time[bad[0]]:.6g} d is beyond ±{MAX_ABS_TIME:g} d, not a date "
+                                     "in any time system; remove the row")
+    if time.size and float(time.max()) - float(time.min()) > MAX_TIME_SPAN:
+        i = int(np.argmax(np.abs(time - np.median(time))))
+        return i, "time", (f"time {time[i]:.10g} d makes the light curve span "
+                           f"{float(time.max()) - float(time.min()):.6g} d, more than {MAX_TIME_SPAN:g} d; "
+                           "remove the row or split the data")
+    bad = np.flatnonzero(np.abs(flux) > VALUE_LIMIT)
+    if bad.size:
+        return int(bad[0]), "flux", f"flux {flux[bad[0]]:.6g} is beyond ±{VALUE_LIMIT:g}; rescale the fluxes"
+    bad = np.flatnonzero((flux_err < 1.0 / VALUE_LIMIT) | (flux_err > VALUE_LIMIT))
+    if bad.size:
+        return int(bad[0]), "flux_err", (f"error {flux_err[bad[0]]:.6g} is outside {1.0 / VALUE_LIMIT:g} to "
+                                         f"{VALUE_LIMIT:g}; rescale the fluxes and errors")
+    if flux_err.size and float(flux_err.max()) > ERR_FACTOR ** 2 * float(flux_err.min()):
+        i = int(np.argmax(np.abs(np.log(flux_err / np.median(flux_err)))))
+        return i, "flux_err", (f"error {flux_err[i]:.6g}: the errors span a factor "
+                               f"{float(flux_err.max() / flux_err.min()):.3g}, more than {ERR_FACTOR ** 2:g}; "
+                               f"remove rows whose error is not within {ERR_FACTOR:g} times the median")
+    return None

@@ -31,11 +31,13 @@ from astropy.time import Time
 from astropy.utils.exceptions import AstropyWarning
 
 from . import _columns
-from ._validate import finite_or_none
+from ._validate import (ERR_FACTOR, FLUX_FACTOR, MAX_ABS_TIME, MAX_TIME_SPAN, VALUE_LIMIT, finite_or_none,
+                        light_curve_range_problem)
 from .errors import EclipsekitWarning, InputError
 
 __all__ = ["sample_paths", "LightCurve", "VelocityCurve", "read_light_curve", "read_velocities", "magnitudes_to_flux",
-           "TIME_SYSTEMS", "MIN_POINTS", "MIN_VELOCITIES"]
+           "TIME_SYSTEMS", "MIN_POINTS", "MIN_VELOCITIES", "MAX_ABS_TIME", "MAX_TIME_SPAN", "ERR_FACTOR",
+           "FLUX_FACTOR", "VALUE_LIMIT"]
 
 #: Time systems a light curve or velocity curve may be in.
 TIME_SYSTEMS = ("BJD_TDB", "HJD", "JD", "MJD", "unknown")
@@ -125,6 +127,10 @@ class LightCurve(_Series):
         row = np.arange(t.size) if self.row is None else np.asarray(self.row, dtype=int)
         if row.shape != t.shape:
             raise InputError("`row` must be as long as `time`")
+        problem = light_curve_range_problem(t, f, e)
+        if problem is not None:
+            i, role, text = problem
+            raise InputError(f"`{role}` at row {row[i]}: {text}")
         if t.size > 1 and np.any(np.diff(t) < 0):
             order = np.argsort(t, kind="stable")
             t, f, e, row = t[order], f[order], e[order], row[order]
@@ -855,13 +861,18 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
     -------
     LightCurve
         Sorted, cleaned; ``rejected`` holds the rows removed by reason
-        (``"quality flag"``, ``"non-finite"``, ``"duplicate time"``, first kept).
+        (``"quality flag"``, ``"non-finite"``, ``"time out of range"`` (``|time|`` over
+        :data:`MAX_ABS_TIME`), ``"duplicate time"`` (first kept), ``"flux out of range"``
+        (over :data:`FLUX_FACTOR` times the median ``|flux|``), ``"flux error out of
+        range"`` (not within :data:`ERR_FACTOR` of the median error)).
 
     Raises
     ------
     InputError
         Unreadable file, missing column, text in a numeric column, all-NaN column,
-        errors <= 0, fewer than :data:`MIN_POINTS` usable points.
+        errors <= 0, fewer than :data:`MIN_POINTS` usable points, a span over
+        :data:`MAX_TIME_SPAN`, or values beyond :data:`VALUE_LIMIT` (see
+        :func:`eclipsekit._validate.light_curve_range_problem`).
 
     Warns
     -----
@@ -897,6 +908,7 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
         _reject(keep, rejected, np.isfinite(quality) & (quality != 0), "quality flag")
     finite = np.isfinite(time) & np.isfinite(value) & (np.isfinite(err) if err is not None else True)
     _reject(keep, rejected, ~finite, "non-finite")
+    _reject(keep, rejected, np.abs(time) > MAX_ABS_TIME, "time out of range")
     if err is not None:
         _check_positive_errors(raw, cols["err"], err, keep)
     _reject(keep, rejected, _first_occurrence_duplicates(time, keep), "duplicate time")
@@ -914,7 +926,10 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
 
     meta: dict[str, Any] = {"input_kind": "flux" if kind == "flux" else "magnitude"}
     if kind == "mag":
-        v, e, meta["magnitude_reference"] = magnitudes_to_flux(v, e)
+        with np.errstate(over="ignore", under="ignore"):  # extreme magnitudes: rejected just below
+            v, e, meta["magnitude_reference"] = magnitudes_to_flux(v, e)
+    t, v, e, rows = _reject_out_of_range(t, v, e, rows, rejected)
+    _check_enough(raw, rows.size, rejected, MIN_POINTS, "usable points")
     level = _out_of_eclipse_level(v) if normalise else 1.0
     if normalise and not (math.isfinite(level) and level > 0):
         raise InputError(f"{raw.name}: cannot normalise: the median out-of-eclipse flux in {value_name!r} is "
@@ -925,6 +940,7 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
     else:
         e = _estimated_errors(raw, value_name, v)
         notes.append("no error column: errors estimated from the point-to-point scatter")
+    _check_ranges(raw, cols, value_name, t, v, e, rows)
     meta.update({
         "source": str(raw.path), "format": raw.format, "time_system": system, "time_offset": offset,
         "passband": _passband(raw, value_name), "exposure_time": _exposure_time(raw.header, _median_step(t)),
@@ -932,6 +948,43 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
         "flux_err_estimated": err is None, "notes": notes,
     })
     return LightCurve(t, v, e, row=rows, meta=meta, rejected=rejected)
+
+
+def _reject_out_of_range(t: np.ndarray, v: np.ndarray, e: np.ndarray | None, rows: np.ndarray,
+                         rejected: dict[str, np.ndarray]) -> tuple[np.ndarray, ...]:
+    """Move rows whose flux or error is out of range to ``rejected`` (in place); return the rest.
+
+    ``"flux out of range"``: not finite after a magnitude conversion, or ``|flux|`` above
+    :data:`FLUX_FACTOR` times the median ``|flux|``.  ``"flux error out of range"``: an
+    error not within :data:`ERR_FACTOR` of the median error (such a point would carry
+    1e6 times the weight of the others, or none).  Such values are fill values or slips,
+    not measurements; removing them keeps weights and their sums finite in the kernels.
+    """
+    bad_flux = ~np.isfinite(v)
+    scale = float(np.median(np.abs(v[~bad_flux]))) if (~bad_flux).any() else 0.0
+    if scale > 0:
+        bad_flux |= np.abs(v) > FLUX_FACTOR * scale
+    bad_err = np.zeros(v.size, bool)
+    if e is not None:
+        usable = np.isfinite(e) & (e > 0) & ~bad_flux
+        median = float(np.median(e[usable])) if usable.any() else math.nan
+        with np.errstate(invalid="ignore"):
+            bad_err = ~bad_flux & ~((e >= median / ERR_FACTOR) & (e <= median * ERR_FACTOR))
+    for reason, mask in (("flux out of range", bad_flux), ("flux error out of range", bad_err)):
+        if mask.any():
+            rejected[reason] = np.union1d(rejected.get(reason, np.empty(0, int)), rows[mask])
+    keep = ~(bad_flux | bad_err)
+    return t[keep], v[keep], (e[keep] if e is not None else None), rows[keep]
+
+
+def _check_ranges(raw: _RawTable, cols: dict[str, str | None], value_name: str, t: np.ndarray, v: np.ndarray,
+                  e: np.ndarray, rows: np.ndarray) -> None:
+    """A one-line InputError naming file, row and column for a value outside the numerical ranges."""
+    problem = light_curve_range_problem(t, v, e)
+    if problem is not None:
+        i, role, text = problem
+        column = {"time": cols["time"], "flux": value_name, "flux_err": cols["err"] or "estimated error"}[role]
+        raise InputError(f"{raw.name}: data row {rows[i] + 1}, column {column!r}: {text}")
 
 
 def _check_enough(raw: _RawTable, n: int, rejected: dict[str, np.ndarray], minimum: int, what: str) -> None:

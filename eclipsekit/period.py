@@ -42,7 +42,7 @@ from astropy.table import Table
 from astropy.timeseries import BoxLeastSquares
 from scipy.optimize import least_squares
 
-from ._grid import Q_MAX, bin_in_time, frequency_grid, min_duty_cycle, period_bands, trial_durations
+from ._grid import Q_MAX, bin_in_time, frequency_grid, grid_size, min_duty_cycle, period_bands, trial_durations
 from ._pdm import pdm_theta
 from ._validate import as_float
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
@@ -87,6 +87,11 @@ N_PEAKS_PDM = 3
 #: Default shortest period (d): detached binaries shorter than this are very rare
 #: and the eclipses of contact systems are not boxes (common practice).
 DEFAULT_MIN_PERIOD = 0.25
+#: Fewest points a period search works with (as :data:`eclipsekit.data.MIN_POINTS`).
+MIN_SEARCH_POINTS = 20
+#: Largest trial grid: 1e7 periods (a default search over a 10-year, 3,650 d baseline has
+#: ~2e6).  Beyond it a search takes hours; the caller is asked to narrow the range.
+MAX_TRIAL_PERIODS = 1e7
 
 
 # ----------------------------------------------------------------------------------------
@@ -268,6 +273,20 @@ class PeriodSearch:
 # ----------------------------------------------------------------------------------------
 # coarse periodograms
 # ----------------------------------------------------------------------------------------
+def _check_finite_for_bls(t, y, dy) -> None:
+    """Refuse non-finite values or weights before astropy's compiled box-least-squares engine.
+
+    That engine does not check its inputs and can crash the interpreter on NaN times;
+    the light-curve ranges (:mod:`eclipsekit._validate`) keep the values and their
+    weights finite, so this only fires when a light curve bypassed them.
+    """
+    with np.errstate(over="ignore", divide="ignore"):
+        ok = np.isfinite(t) & np.isfinite(y) & np.isfinite(dy) & np.isfinite(1.0 / dy ** 2) & (dy > 0)
+    if not ok.all():
+        raise InputError(f"{int((~ok).sum())} of {ok.size} (binned) points have a non-finite time, flux or weight "
+                         "before the box-least-squares search; check the light curve with `eclipsekit inspect`")
+
+
 def _bls_chunk(t, y, dy, periods, durations, oversample=4):
     """astropy BoxLeastSquares (fast method, depth signal-to-noise objective) on one chunk of periods.
 
@@ -277,6 +296,7 @@ def _bls_chunk(t, y, dy, periods, durations, oversample=4):
     Returns ``(power, duration)`` with power = (S/N)² / 2, the Δ log-likelihood of the
     box with both levels fitted.
     """
+    _check_finite_for_bls(t, y, dy)
     res = BoxLeastSquares(t, y, dy).power(periods, durations, objective="snr",
                                            method="fast", oversample=oversample)
     # report Δ log-likelihood = (S/N)²/2: the S/N alone compresses the dynamic range
@@ -617,6 +637,7 @@ def _local_bls(t, y, dy, period, *, oversample, baseline, n_jobs=1):
     d_lo = 0.6 * float(min_duty_cycle(period)) * period
     d_hi = min(Q_MAX * pmin, 0.5 * pmin)
     durations = np.geomspace(d_lo, max(d_hi, d_lo * 1.01), max(2, int(np.ceil(np.log(d_hi / d_lo) / np.log(1.2))) + 1))
+    _check_finite_for_bls(t, y, dy)
     res = BoxLeastSquares(t, y, dy).power(periods, durations, objective="snr", method="fast", oversample=10)
     i = int(np.argmax(res.power))
     return float(res.period[i]), float(res.transit_time[i]), float(res.duration[i]), float(res.power[i]), df
@@ -720,19 +741,30 @@ def _choose(evals: list[dict]) -> tuple[int, list[str], float]:
     best = order[0]
     top = evals[best]["dchi2"]
     tol = max(TIE_ABS, TIE_REL * top)
-    alternative = math.nan
-
-    def find(ratio, ref):
-        p = evals[ref]["period"]
-        js = [j for j in range(len(evals)) if _ratio_close(evals[j]["period"], p, ratio)]
-        return max(js, key=lambda j: evals[j]["dchi2"]) if js else None
-
     reasons.append(f"strongest two-box fit at P = {evals[best]['period']:.6f} d (Δχ² = {top:.1f})")
+    best, alternative = _follow_doublings(evals, best, tol, reasons)
+    alternative = _explain_choice(evals, best, tol, alternative, reasons)
+    return best, reasons, alternative
+
+
+def _find_ratio(evals: list[dict], ratio: float, ref: int) -> int | None:
+    """Index of the best-folding candidate at ``ratio`` times the period of candidate ``ref``, or None."""
+    p = evals[ref]["period"]
+    js = [j for j in range(len(evals)) if _ratio_close(evals[j]["period"], p, ratio)]
+    return max(js, key=lambda j: evals[j]["dchi2"]) if js else None
+
+
+def _follow_doublings(evals: list[dict], best: int, tol: float, reasons: list[str]) -> tuple[int, float]:
+    """Rules 2 and 3 of :func:`_choose`: move to 2P on unequal odd/even depths or twin eclipses.
+
+    Returns the chosen index and the alternative period (NaN when none).
+    """
+    alternative = math.nan
     seen = {best}
     for _ in range(4):  # follow doublings at most a few times
         ev = evals[best]
         oe = ev["odd_even_sigma"]
-        j = find(2.0, best)
+        j = _find_ratio(evals, 2.0, best)
         if np.isfinite(oe) and oe > ODD_EVEN_SIGMA:
             # a true period 2P always folds at least as well as P (its two boxes can take
             # both parities), so doubling must not lose Δχ²
@@ -763,6 +795,11 @@ def _choose(evals: list[dict]) -> tuple[int, list[str], float]:
                 seen.add(j)
                 continue
         break
+    return best, alternative
+
+
+def _explain_choice(evals: list[dict], best: int, tol: float, alternative: float, reasons: list[str]) -> float:
+    """Rule 4 of :func:`_choose`: odd/even, secondary and P/2-or-2P ties in words; returns the alternative."""
     ev = evals[best]
     if np.isfinite(ev["odd_even_sigma"]) and ev["odd_even_sigma"] <= ODD_EVEN_SIGMA:
         reasons.append(f"odd/even depths agree within {ev['odd_even_sigma']:.1f}σ")
@@ -775,11 +812,11 @@ def _choose(evals: list[dict]) -> tuple[int, list[str], float]:
     else:
         reasons.append(f"no secondary eclipse at any phase (best dip {ev['snr2']:.1f}σ < {SECONDARY_SNR:g}σ)")
         if not np.isfinite(alternative):
-            j = find(2.0, best)
+            j = _find_ratio(evals, 2.0, best)
             if j is not None and evals[j]["dchi2"] >= ev["dchi2"] - tol:
                 alternative = evals[j]["period"]
                 reasons.append(f"2P = {alternative:.6f} d fits as well without a clear twin signature")
-    half = find(0.5, best)
+    half = _find_ratio(evals, 0.5, best)
     if (not np.isfinite(alternative) and half is not None and _twin_signature(ev)
             and evals[half]["dchi2"] >= ev["dchi2"] - tol):
         alternative = evals[half]["period"]
@@ -792,7 +829,7 @@ def _choose(evals: list[dict]) -> tuple[int, list[str], float]:
                        + (f", odd/even there {e['odd_even_sigma']:.1f}σ" if np.isfinite(e["odd_even_sigma"]) else ""))
     if np.isfinite(ev["pdm_theta"]):
         reasons.append(f"PDM θ {ev['pdm_theta']:.3f} at P, {ev['pdm_theta_2p']:.3f} at 2P")
-    return best, reasons, alternative
+    return alternative
 
 
 # ----------------------------------------------------------------------------------------
@@ -827,9 +864,13 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
     Raises
     ------
     InputError
-        Bad arguments or too few data.
+        Bad arguments, or a trial grid over :data:`MAX_TRIAL_PERIODS` periods.
     NoEclipseFound
-        No significant periodic eclipse (``exc.search`` holds the partial search).
+        No significant periodic eclipse (``exc.search`` holds the partial search
+        when the periodograms were computed); also, before any search, fewer than
+        :data:`MIN_SEARCH_POINTS` points, a baseline too short for two eclipses of
+        the default shortest period, or a flux too nearly constant for any box to
+        reach :data:`SNR_MIN` (``exc.search`` is None then).
 
     Notes
     -----
@@ -846,71 +887,163 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
     """
     if method not in _METHODS:
         raise InputError(f"`method` must be one of {sorted(_METHODS)}, got {method!r}")
+    s = _setup(lc, min_period, max_period, oversample, method, n_jobs)
+    timings: dict[str, float] = {}
+    freq, bands, power, theta = _coarse_periodograms(s, progress, timings)
+    clock = _time.perf_counter()
+    proposed, sde_bls, sde_pdm, daily = _propose_candidates(s, freq, power, theta, bands)
+    evals = _evaluate_candidates(s, proposed)
+    timings["candidates"] = _time.perf_counter() - clock
+    significance = sde_bls if s.do_bls else sde_pdm
+    common = _search_fields(s, freq, power, theta, significance, sde_pdm, daily, timings)
+    if not evals:
+        raise _no_eclipse("no candidate period inside the search range", _table([], -1, s.t_ref),
+                          significance, common)
+
+    clock = _time.perf_counter()
+    best, reasons, alternative = _choose(evals)
+    ev = evals[best]
+    table = _table(evals, best, s.t_ref)
+    in1 = _check_detection(s, ev, significance, common["sde_threshold"], table, common, reasons)
+    values = _refine_ephemeris(s, ev, in1, reasons)
+    timings["refinement"] = _time.perf_counter() - clock
+    return PeriodSearch(
+        **values, significance=float(significance), reasoning="; ".join(reasons) + ".", candidates=table,
+        secondary_detected=bool(ev["secondary"]), secondary_snr=float(ev["snr2"]),
+        odd_even_sigma=float(ev["odd_even_sigma"]), alternative_period=float(alternative),
+        ambiguous=bool(np.isfinite(alternative)), n_eclipses_primary=int(ev["n_events1"]),
+        n_eclipses_secondary=int(ev["n_events2"]), **common)
+
+
+@dataclass(frozen=True, eq=False)
+class _Setup:
+    """Validated arguments and the data of one period search (times relative to ``t_ref``)."""
+
+    t_abs: np.ndarray
+    t: np.ndarray
+    y: np.ndarray
+    dy: np.ndarray
+    w: np.ndarray
+    t_ref: float
+    baseline: float
+    pmin: float
+    pmax: float
+    oversample: float
+    n_jobs: int
+    method: str
+
+    @property
+    def do_bls(self) -> bool:
+        return self.method in ("both", "bls")
+
+    @property
+    def do_pdm(self) -> bool:
+        return self.method in ("both", "pdm")
+
+
+def _setup(lc, min_period, max_period, oversample, method, n_jobs) -> _Setup:
+    """Check the arguments (InputError) and the data (NoEclipseFound when no eclipse can be found)."""
     for attr in ("time", "flux", "flux_err"):
         if not hasattr(lc, attr):
             raise InputError("`lc` must be a LightCurve (use eclipsekit.read_light_curve)")
     t_abs = np.asarray(lc.time, float)
     y = np.asarray(lc.flux, float)
     dy = np.asarray(lc.flux_err, float)
-    if t_abs.size < 20:
-        raise InputError(f"`lc` has {t_abs.size} points; a period search needs at least 20")
     try:
         oversample = float(oversample)
     except (TypeError, ValueError):
         raise InputError(f"`oversample` must be a number >= 1, got {oversample!r}") from None
-    if not (oversample >= 1):
-        raise InputError(f"`oversample` must be >= 1, got {oversample}")
+    if not (1 <= oversample < math.inf):
+        raise InputError(f"`oversample` must be a finite number >= 1, got {oversample}")
     if n_jobs is None:
         n_jobs = os.cpu_count() or 1
     if int(n_jobs) < 1:
         raise InputError(f"`n_jobs` must be a positive integer, got {n_jobs}")
-    n_jobs = int(n_jobs)
-    baseline = float(t_abs[-1] - t_abs[0])
+    baseline = float(t_abs[-1] - t_abs[0]) if t_abs.size else 0.0
+    pmin, pmax = _period_range(min_period, max_period, baseline, t_abs.size)
+    n_grid = grid_size(pmin, pmax, baseline, oversample)
+    if n_grid > MAX_TRIAL_PERIODS:
+        raise InputError(f"the trial grid would have {n_grid:.3g} periods (over {MAX_TRIAL_PERIODS:.0e}) for a "
+                         f"{baseline:.6g} d baseline and {pmin:g}-{pmax:g} d; raise `min_period`, lower "
+                         "`max_period` or `oversample`")
+    _check_variation(y, dy)
+    t_ref = float(t_abs[0])
+    return _Setup(t_abs=t_abs, t=t_abs - t_ref, y=y, dy=dy, w=1.0 / dy ** 2, t_ref=t_ref, baseline=baseline,
+                  pmin=pmin, pmax=pmax, oversample=oversample, n_jobs=int(n_jobs), method=method)
+
+
+def _period_range(min_period, max_period, baseline: float, n_points: int) -> tuple[float, float]:
+    """The search range in days; NoEclipseFound when the data are too few or too short for any period."""
     pmin = as_float(min_period, "min_period", u.day, positive=True, allow_none=True)
     pmax = as_float(max_period, "max_period", u.day, positive=True, allow_none=True)
     if pmax is not None and pmax > baseline:
         raise InputError(f"`max_period` {pmax} d exceeds the {baseline:.3f} d baseline; "
                          "at least two eclipses are needed")
+    if n_points < MIN_SEARCH_POINTS:
+        raise NoEclipseFound(f"only {n_points} points: a period search needs at least {MIN_SEARCH_POINTS}")
+    if pmax is None and min_period is None and 0.5 * baseline <= DEFAULT_MIN_PERIOD:
+        raise NoEclipseFound(f"the light curve spans only {baseline:.6g} d: two eclipses of a period of at least "
+                             f"{DEFAULT_MIN_PERIOD:g} d need {2 * DEFAULT_MIN_PERIOD:g} d")
     pmin = DEFAULT_MIN_PERIOD if pmin is None else pmin
     pmax = 0.5 * baseline if pmax is None else pmax
     if pmin >= pmax:
         raise InputError(f"`min_period` ({pmin:g} d) must be shorter than `max_period` ({pmax:g} d; "
                          f"default half the {baseline:.3f} d baseline)")
+    return pmin, pmax
 
-    timings: dict[str, float] = {}
-    t_ref = float(t_abs[0])
-    t = t_abs - t_ref
-    w = 1.0 / dy ** 2
+
+def _check_variation(y: np.ndarray, dy: np.ndarray) -> None:
+    """NoEclipseFound when the flux varies too little for any eclipse to reach ``SNR_MIN``.
+
+    A box depth is a difference of two weighted means, at most the flux range, with
+    error ``sqrt(1/W_in + 1/W_out) >= 2 / sqrt(W)`` (``W`` the sum of all weights, the
+    bound reached for two equal halves), so no box can exceed ``range * sqrt(W) / 2``.
+    """
+    spread = float(np.ptp(y))
+    if spread == 0.0:
+        raise NoEclipseFound(f"the flux is constant (all {y.size} points equal {y[0]:.10g}): no eclipse")
+    best = spread * math.sqrt(float(np.sum(1.0 / dy ** 2))) / 2.0
+    if best < SNR_MIN:
+        raise NoEclipseFound(f"the flux is nearly constant: its full range {spread:.3g} could give a box depth "
+                             f"of at most {best:.2g}σ (< {SNR_MIN:g}σ needed)")
+
+
+def _coarse_periodograms(s: _Setup, progress: bool, timings: dict[str, float]):
+    """Stages 1-2: the grid, the binned data per band, and both periodograms over the grid."""
     clock = _time.perf_counter()
-
-    # 1. grid and per-band binned data
-    freq = frequency_grid(pmin, pmax, baseline, oversample)
-    bands = _make_bands(t, y, dy, freq)
+    freq = frequency_grid(s.pmin, s.pmax, s.baseline, s.oversample)
+    bands = _make_bands(s.t, s.y, s.dy, freq)
     timings["grid"] = _time.perf_counter() - clock
-
-    # 2. coarse periodograms
     clock = _time.perf_counter()
-    do_bls = method in ("both", "bls")
-    do_pdm = method in ("both", "pdm")
-    power, bdur, theta = _periodograms(bands, freq, do_bls=do_bls, do_pdm=do_pdm, n_jobs=n_jobs, progress=progress)
+    power, _, theta = _periodograms(bands, freq, do_bls=s.do_bls, do_pdm=s.do_pdm, n_jobs=s.n_jobs,
+                                    progress=progress)
     timings["periodograms"] = _time.perf_counter() - clock
+    return freq, bands, power, theta
 
-    # 3. candidates
-    clock = _time.perf_counter()
-    window = abs(np.mean(np.exp(2j * np.pi * t_abs)))  # spectral window at 1 c/d
+
+def _propose_candidates(s: _Setup, freq, power, theta, bands):
+    """Stage 3: periodogram peaks, their P/2, 2P and 3P, and daily aliases, unique and in range.
+
+    Returns ``(candidates, sde_bls, sde_pdm, daily)`` with candidates ``(period, label)`` pairs.
+    """
+    window = abs(np.mean(np.exp(2j * np.pi * s.t_abs)))  # spectral window at 1 c/d
     daily = bool(window > 0.5)
     base: list[tuple[float, str]] = []
     sde_bls = sde_pdm = math.nan
-    if do_bls:
+    if s.do_bls:
         peaks = _top_peaks(freq, power, N_PEAKS_BLS)
+        if not peaks:
+            raise NoEclipseFound("the box-least-squares periodogram has no finite value: no eclipse")
         sde_bls = _sde(power, power[peaks[0]])
         base += [(1.0 / freq[i], f"BLS peak {k + 1}") for k, i in enumerate(peaks)]
-    if do_pdm:
+    if s.do_pdm:
         # θ's noise scatter depends on points per bin, which changes from band to band:
         # standardise per band (robustly) before comparing minima across the grid
         # candidates from the deepest θ; significance in robust σ of θ's band at that minimum
         z = _pdm_z(theta, bands)
         minima = _top_peaks(freq, -theta, N_PEAKS_PDM)
+        if not minima:
+            raise NoEclipseFound("the phase-dispersion periodogram has no finite value: no eclipse")
         sde_pdm = float(z[minima[0]])
         base += [(1.0 / freq[i], f"PDM minimum {k + 1}") for k, i in enumerate(minima)]
     cands: list[tuple[float, str]] = list(base)
@@ -925,71 +1058,79 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
                     cands.append((1.0 / fa, f"alias {nday:+d}/d of {lab}"))
     uniq: list[tuple[float, str]] = []
     for p, lab in cands:
-        if not (pmin * 0.999 <= p <= pmax * 1.001):
+        if not (s.pmin * 0.999 <= p <= s.pmax * 1.001):
             continue
         if any(abs(p / q - 1) < 0.002 for q, _ in uniq):
             continue
         uniq.append((p, lab))
+    return uniq, sde_bls, sde_pdm, daily
 
+
+def _evaluate_candidates(s: _Setup, proposed: list[tuple[float, str]]) -> list[dict]:
+    """Stage 4: refine and fold every candidate, then the P/2 and 2P of the three strongest folds."""
     def evaluate_all(items):
         # the BLS C kernel releases the GIL, so candidates are refined on the thread pool too
-        with ThreadPoolExecutor(max(1, n_jobs)) as ex:
-            return list(ex.map(lambda it: _candidate(t, y, dy, w, it[0], it[1], oversample, baseline), items))
+        with ThreadPoolExecutor(max(1, s.n_jobs)) as ex:
+            return list(ex.map(lambda it: _candidate(s.t, s.y, s.dy, s.w, it[0], it[1], s.oversample, s.baseline),
+                               items))
 
-    evals: list[dict] = evaluate_all(uniq)
+    evals: list[dict] = evaluate_all(proposed)
     # make sure the strongest folds can be compared with their P/2 and 2P
     extra: list[tuple[float, str]] = []
     for e in sorted(evals, key=lambda e: -e["dchi2"])[:3]:
         for r, name in ((0.5, "P/2"), (2.0, "2P")):
             p = e["period"] * r
-            if pmin * 0.999 <= p <= pmax * 1.001 and not any(abs(p / q["period"] - 1) < 0.005 for q in evals) \
+            if s.pmin * 0.999 <= p <= s.pmax * 1.001 and not any(abs(p / q["period"] - 1) < 0.005 for q in evals) \
                     and not any(abs(p / q - 1) < 0.005 for q, _ in extra):
                 extra.append((p, f"{name} of {e['source']}"))
     if extra:
         evals += evaluate_all(extra)
-    timings["candidates"] = _time.perf_counter() - clock
+    return evals
 
-    # periodograms in increasing period
+
+def _search_fields(s: _Setup, freq, power, theta, significance, sde_pdm, daily, timings) -> dict[str, Any]:
+    """The :class:`PeriodSearch` fields shared by a found and a failed search (periodograms increasing)."""
     periods_sorted = (1.0 / freq)[::-1]
-    bls_p = periods_sorted if do_bls else np.empty(0)
-    bls_pw = power[::-1] if do_bls else np.empty(0)
-    pdm_p = periods_sorted if do_pdm else np.empty(0)
-    pdm_th = theta[::-1] if do_pdm else np.empty(0)
-    significance = sde_bls if do_bls else sde_pdm
-    threshold = SDE_THRESHOLD if do_bls else PDM_SDE_THRESHOLD
+    return dict(bls_periods=periods_sorted if s.do_bls else np.empty(0),
+                bls_power=power[::-1] if s.do_bls else np.empty(0),
+                pdm_periods=periods_sorted if s.do_pdm else np.empty(0),
+                pdm_theta=theta[::-1] if s.do_pdm else np.empty(0),
+                sde_threshold=SDE_THRESHOLD if s.do_bls else PDM_SDE_THRESHOLD, pdm_significance=sde_pdm,
+                method=s.method, min_period=s.pmin, max_period=s.pmax, oversample=s.oversample,
+                n_periods=int(freq.size), daily_window=daily, timings=timings)
 
-    common = dict(bls_periods=bls_p, bls_power=bls_pw, pdm_periods=pdm_p, pdm_theta=pdm_th,
-                  sde_threshold=threshold, pdm_significance=sde_pdm, method=method, min_period=pmin,
-                  max_period=pmax, oversample=oversample, n_periods=int(freq.size), daily_window=daily,
-                  timings=timings)
 
-    def fail(message: str, table: Table) -> NoEclipseFound:
-        partial = PeriodSearch(period=math.nan, period_err=math.nan, t0=math.nan, t0_err=math.nan,
-                               depth_primary=math.nan, depth_secondary=math.nan, duration_primary=math.nan,
-                               duration_secondary=math.nan, phase_secondary=math.nan,
-                               significance=significance, reasoning=message, candidates=table,
-                               found=False, **common)
-        return NoEclipseFound(message, search=partial)
+def _no_eclipse(message: str, table: Table, significance: float, common: dict[str, Any]) -> NoEclipseFound:
+    """NoEclipseFound carrying the partial search (periodograms and candidate table)."""
+    partial = PeriodSearch(period=math.nan, period_err=math.nan, t0=math.nan, t0_err=math.nan,
+                           depth_primary=math.nan, depth_secondary=math.nan, duration_primary=math.nan,
+                           duration_secondary=math.nan, phase_secondary=math.nan,
+                           significance=significance, reasoning=message, candidates=table,
+                           found=False, **common)
+    return NoEclipseFound(message, search=partial)
 
-    if not evals:
-        raise fail("no candidate period inside the search range", _table([], -1, t_ref))
 
-    # 4. decision
-    clock = _time.perf_counter()
-    best, reasons, alternative = _choose(evals)
-    ev = evals[best]
-    table = _table(evals, best, t_ref)
-    if significance < threshold:
+def _check_detection(s: _Setup, ev: dict, significance: float, threshold: float, table: Table,
+                     common: dict[str, Any], reasons: list[str]) -> np.ndarray:
+    """Stage 5a: significance, primary S/N, two eclipses, and eclipse rather than smooth modulation.
+
+    Raises NoEclipseFound when a test fails; returns the in-primary-box mask of the chosen fold.
+    """
+    def fail(message: str) -> NoEclipseFound:
+        return _no_eclipse(message, table, significance, common)
+
+    if not significance >= threshold:
         raise fail(f"no significant periodic eclipse: periodogram SDE {significance:.1f} is below the "
-                   f"{threshold:.1f} threshold calibrated on noise-only light curves", table)
+                   f"{threshold:.1f} threshold calibrated on noise-only light curves")
     if not ev["snr1"] >= SNR_MIN:
         raise fail(f"no significant periodic eclipse: the best candidate ({ev['period']:.5f} d) has a primary "
-                   f"depth of only {ev['snr1']:.1f}σ (< {SNR_MIN:g}σ)", table)
+                   f"depth of only {ev['snr1']:.1f}σ (< {SNR_MIN:g}σ)")
     if ev["n_events1"] < 2:
         raise fail(f"only one primary eclipse observed at the best candidate ({ev['period']:.5f} d): "
-                   "the period is not constrained", table)
+                   "the period is not constrained")
     # eclipse or smooth modulation?  Fit a 2-harmonic sinusoid at P, then the primary box on the residuals.
-    dchi_sin, resid = _fourier_dchi2(t, y, w, ev["period"])
+    t, w = s.t, s.w
+    dchi_sin, resid = _fourier_dchi2(t, s.y, w, ev["period"])
     ph = orbital_phase(t, ev["period"], ev["t0"], -0.5)
     in1 = np.abs(ph) < 0.5 * ev["duration"] / ev["period"]
     ref = np.abs(ph) >= max(0.5 * ev["extent1"], 0.75 * ev["duration"]) / ev["period"]
@@ -1002,18 +1143,25 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
     if box_resid < need:
         raise fail(f"the periodic signal at {ev['period']:.5f} d is smooth modulation (e.g. spots), not an "
                    f"eclipse: a 2-harmonic sinusoid explains Δχ² {dchi_sin:.1f}, and a box on its residuals only "
-                   f"{box_resid:.1f} (needs ≥ {need:.1f})", table)
+                   f"{box_resid:.1f} (needs ≥ {need:.1f})")
     reasons.append(f"eclipse-shaped: box on the residuals of a 2-harmonic sinusoid still gives Δχ² "
                    f"{box_resid:.1f} (sinusoid {dchi_sin:.1f})")
+    return in1
 
-    # 5. refine P and t0 by a trapezoid fit at full resolution
-    df_local = float(min_duty_cycle(ev["period"])) / (oversample * baseline)
+
+def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) -> dict[str, float]:
+    """Stage 5b: P, t0, depths and durations from a trapezoid fit at full resolution (box values if it fails)."""
+    t = s.t
+    df_local = float(min_duty_cycle(ev["period"])) / (s.oversample * s.baseline)
     try:
-        fit = _fit_trapezoids(t, y, dy, ev, df_local)
+        fit = _fit_trapezoids(t, s.y, s.dy, ev, df_local)
     except Exception as exc:  # pragma: no cover - defensive, reported not hidden
         warnings.warn(f"trapezoid refinement failed ({exc}); using the box-search values", EclipsekitWarning)
         fit = None
-    if fit is not None and fit["success"] and np.isfinite(fit["period_err"]) and fit["period_err"] > 0:
+    # the fit's period is bounded to ±4 grid steps (see _fit_trapezoids): an error wider than that
+    # window means the data do not constrain it there (a near-singular covariance), so fall back
+    window = 4 * df_local * ev["period"] ** 2
+    if fit is not None and fit["success"] and np.isfinite(fit["period_err"]) and 0 < fit["period_err"] < window:
         P, Perr = fit["period"], fit["period_err"]
         # epoch nearest the middle of the in-eclipse data: least correlated with P
         tmid = float(np.average(t[in1])) if in1.any() else 0.5 * (t[0] + t[-1])
@@ -1036,17 +1184,10 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         reasons.append("trapezoid fit failed: values from the box search, errors from the grid step")
         warnings.warn("trapezoid refinement did not converge; period and t0 errors are grid-based",
                       EclipsekitWarning)
-    timings["refinement"] = _time.perf_counter() - clock
-    ambiguous = bool(np.isfinite(alternative))
-
-    return PeriodSearch(
-        period=float(P), period_err=float(Perr), t0=float(T0 + t_ref), t0_err=float(T0err),
-        depth_primary=float(d1), depth_secondary=float(d2), duration_primary=float(D1),
-        duration_secondary=float(D2), phase_secondary=float(ph2), significance=float(significance),
-        reasoning="; ".join(reasons) + ".", candidates=table, depth_primary_err=float(d1e),
-        depth_secondary_err=float(d2e), secondary_detected=bool(ev["secondary"]), secondary_snr=float(ev["snr2"]),
-        odd_even_sigma=float(ev["odd_even_sigma"]), alternative_period=float(alternative), ambiguous=ambiguous,
-        n_eclipses_primary=int(ev["n_events1"]), n_eclipses_secondary=int(ev["n_events2"]), **common)
+    return dict(period=float(P), period_err=float(Perr), t0=float(T0 + s.t_ref), t0_err=float(T0err),
+                depth_primary=float(d1), depth_secondary=float(d2), duration_primary=float(D1),
+                duration_secondary=float(D2), phase_secondary=float(ph2), depth_primary_err=float(d1e),
+                depth_secondary_err=float(d2e))
 
 
 def _candidate(t, y, dy, w, period, label, oversample, baseline) -> dict:

@@ -2,6 +2,7 @@
 
 import json
 import math
+import re
 
 import numpy as np
 import pytest
@@ -137,3 +138,50 @@ def test_joint_fit_needs_velocities(tmp_path, capsys):
     lc, _ = sample_paths()
     assert main(["run", str(lc), "--joint", "--out", str(tmp_path / "o"), "--quiet"]) == 2
     assert "--rv" in _one_line_error(capsys)
+
+
+# ---- crafted light curves that once crashed `eclipsekit period` (regressions) ---------------
+def _crafted(tmp_path, name, edit):
+    """2,000 rows at time 0.01 i with trapezoid eclipses every 2.3 d (made here), then one defect."""
+    rng = np.random.default_rng(11)
+    t = 0.01 * np.arange(2000)
+    phase = ((t - 0.3) / 2.3 + 0.5) % 1.0 - 0.5
+    flux = (1 - 0.3 * np.clip((0.03 - np.abs(phase)) / 0.01, 0, 1)
+            - 0.1 * np.clip((0.03 - np.abs(np.abs(phase) - 0.5)) / 0.01, 0, 1) + rng.normal(0, 0.002, t.size))
+    err = np.full(t.size, 0.002)
+    edit(t, flux, err)
+    path = tmp_path / f"{name}.csv"
+    path.write_text("time,flux,flux_err\n" + "\n".join(f"{a:.17g},{b:.17g},{c:.17g}" for a, b, c in zip(t, flux, err))
+                    + "\n")
+    return path
+
+
+def _set(array, index, value):
+    array[index] = value
+
+
+@pytest.mark.parametrize("name,edit,code,words", [
+    # constant flux: no eclipse to find (exit 1), not an IndexError
+    ("constant", lambda t, f, e: _set(f, slice(None), 1.0), 1, "constant"),
+    # one fill-value time: the row is rejected ("time out of range") and the eclipses are found
+    ("time_minus_1e308", lambda t, f, e: _set(t, 5, -1e308), 0, None),
+    ("time_1e300", lambda t, f, e: _set(t, 5, 1e300), 0, None),
+    # errors whose squares under- or overflow: rejected rows ("flux error out of range"), period found
+    ("err_1e-200", lambda t, f, e: _set(e, 5, 1e-200), 0, None),
+    ("err_100x1e308", lambda t, f, e: _set(e, slice(0, 100), 1e308), 0, None),
+    # the same numbers for the whole file cannot be rescued: bad input, exit 2
+    ("all_err_1e-200", lambda t, f, e: _set(e, slice(None), 1e-200), 2, "flux_err"),
+    # a date far outside the others: span over MAX_TIME_SPAN, exit 2 naming the row
+    ("time_1e6", lambda t, f, e: _set(t, 5, 1e6), 2, "data row 6"),
+])
+def test_crafted_inputs_exit_codes(tmp_path, capsys, name, edit, code, words):
+    path = _crafted(tmp_path, name, edit)
+    assert main(["period", str(path), "--quiet"]) == code
+    if code == 0:
+        value, sigma = (float(x) for x in re.search(r"period +([\d.]+) ± ([\d.]+) d", capsys.readouterr().out).groups())
+        assert abs(value - 2.3) < 5 * sigma  # injected period 2.3 d, within 5 of the stated sigma
+        assert main(["inspect", str(path)]) == 0
+        assert "out of range: " in capsys.readouterr().out  # the rejection is reported
+    else:
+        line = _one_line_error(capsys)
+        assert words in line and line.startswith("eclipsekit: error: ")

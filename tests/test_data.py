@@ -612,3 +612,72 @@ def test_cli_bad_file_exits_2_with_one_line(tmp_path, capsys, make):
 def test_cli_missing_file_exits_2(tmp_path, capsys):
     assert main(["inspect", str(tmp_path / "absent.fits")]) == 2
     assert "absent.fits: no such file" in capsys.readouterr().err
+
+
+# ---- numerical ranges: rows rejected with a reason, or the file refused naming row and column ---
+def _range_csv(tmp_path, edit, n=200, name="lc.csv", header="time,flux,flux_err"):
+    rng = np.random.default_rng(21)
+    t = 2450000.0 + 0.05 * np.arange(n)
+    f = 1 + 0.001 * rng.standard_normal(n)
+    e = np.full(n, 0.001)
+    edit(t, f, e)
+    path = tmp_path / name
+    path.write_text(header + "\n" + "\n".join(f"{a:.17g},{b:.17g},{c:.17g}" for a, b, c in zip(t, f, e)) + "\n")
+    return path
+
+
+@pytest.mark.parametrize("column,value,reason", [
+    (0, -1e308, "time out of range"), (0, 1e300, "time out of range"),
+    (2, 1e-200, "flux error out of range"), (2, 1e308, "flux error out of range"),
+    (2, 2e-7, "flux error out of range"), (2, 2.0, "flux error out of range"),  # 1/5000 and 2000 x median
+    (1, 1e300, "flux out of range"), (1, -5e3, "flux out of range"),
+])
+def test_out_of_range_rows_are_rejected_and_reported(tmp_path, column, value, reason):
+    def edit(t, f, e):
+        (t, f, e)[column][7] = value
+
+    lc = read_light_curve(_range_csv(tmp_path, edit))
+    assert list(lc.rejected[reason]) == [7] and len(lc) == 199
+    assert lc.summary_dict()["rejected"][reason] == 1
+    assert f"{reason}: 1" in lc.summary()
+
+
+def test_errors_within_the_factor_are_kept(tmp_path):
+    def edit(t, f, e):
+        e[7], e[8] = 0.001 / 999, 0.001 * 999  # inside ERR_FACTOR = 1e3 of the median
+
+    assert len(read_light_curve(_range_csv(tmp_path, edit))) == 200
+
+
+@pytest.mark.parametrize("edit,match", [
+    (lambda t, f, e: t.__setitem__(9, t[0] + 2e5), r"data row 10, column 'time'.*span"),
+    (lambda t, f, e: e.__setitem__(slice(None), 1e-200), r"data row 1, column 'flux_err'.*outside"),
+])
+def test_unusable_numbers_refuse_the_file(tmp_path, edit, match):
+    with pytest.raises(InputError, match=match) as info:
+        read_light_curve(_range_csv(tmp_path, edit), normalise=False)
+    assert "lc.csv" in str(info.value) and "\n" not in str(info.value)
+
+
+def test_extreme_magnitudes_are_rejected(tmp_path):
+    # -1000 mag would be 10^405 in flux (overflow): the row is rejected, not passed on as inf
+    def edit(t, f, e):
+        f[:] = 12 + 0.001 * (f - 1) / 0.001
+        f[4] = -1000.0
+
+    lc = read_light_curve(_range_csv(tmp_path, edit, header="time,mag,mag_err"))
+    assert list(lc.rejected["flux out of range"]) == [4]
+    assert np.all(np.isfinite(lc.flux)) and np.all(np.isfinite(lc.flux_err ** -2))
+
+
+@pytest.mark.parametrize("kwargs,match", [
+    ({"time": np.r_[np.arange(29.0), 1e9]}, r"`time` at row 29: .*not a date"),
+    ({"time": np.r_[np.arange(29.0), 2e5]}, r"`time` at row 29: .*span"),
+    ({"flux": np.r_[np.ones(29), 1e60]}, r"`flux` at row 29"),
+    ({"flux_err": np.r_[np.full(29, 1e-3), 1e-60]}, r"`flux_err` at row 29"),
+    ({"flux_err": np.r_[np.full(29, 1e-3), 1e4]}, r"`flux_err` at row 29: .*span a factor"),
+])
+def test_light_curve_refuses_values_out_of_range(kwargs, match):
+    arrays = {"time": np.arange(30.0), "flux": np.ones(30), "flux_err": np.full(30, 1e-3), **kwargs}
+    with pytest.raises(InputError, match=match):
+        LightCurve(**arrays)

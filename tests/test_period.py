@@ -358,3 +358,85 @@ def test_bad_arguments(kwargs, match):
     lc = _lc(t, np.ones_like(t), 0.01, rng)
     with pytest.raises(InputError, match=match):
         find_period(lc, progress=False, **kwargs)
+
+
+# ---- inputs that cannot be searched: NoEclipseFound or InputError, never a crash ---------------
+def _flat(n=500, span=20.0, flux=None, sigma=1e-3):
+    t = np.linspace(0.0, span, n)
+    return LightCurve(t, np.ones(n) if flux is None else flux, np.full(n, sigma))
+
+
+def test_constant_flux_is_no_eclipse():
+    # regression: an IndexError once came out of the peak search on a flat periodogram
+    with pytest.raises(NoEclipseFound, match="constant") as info:
+        find_period(_flat(), progress=False)
+    assert info.value.search is None
+
+
+def test_nearly_constant_flux_is_no_eclipse():
+    # flux range 1e-6 with errors 1e-3 over 500 points: at most 1e-6 * sqrt(5e8) / 2 = 0.011σ
+    flux = 1.0 + 1e-6 * (np.arange(500) % 2)
+    with pytest.raises(NoEclipseFound, match="nearly constant"):
+        find_period(_flat(flux=flux), progress=False)
+
+
+def test_box_snr_bound_brute_force():
+    # the bound behind the early exit: any in/out split of the points has a weighted depth S/N
+    # of at most range * sqrt(sum w) / 2 (difference of two weighted means; 1/W_in + 1/W_out
+    # >= 4/W).  Brute force over random splits of random data with random errors.
+    rng = np.random.default_rng(3)
+    y = rng.normal(1.0, 0.01, 60)
+    w = 1.0 / rng.uniform(0.005, 0.05, 60) ** 2
+    bound = np.ptp(y) * math.sqrt(w.sum()) / 2
+    for _ in range(2000):
+        inside = rng.random(60) < rng.uniform(0.05, 0.95)
+        if inside.all() or not inside.any():
+            continue
+        depth = np.average(y[~inside], weights=w[~inside]) - np.average(y[inside], weights=w[inside])
+        assert abs(depth) / math.sqrt(1 / w[inside].sum() + 1 / w[~inside].sum()) <= bound * (1 + 1e-12)
+
+
+def test_too_few_points_is_no_eclipse():
+    rng = np.random.default_rng(4)
+    lc = LightCurve(np.arange(10.0), 1 + 0.01 * rng.standard_normal(10), np.full(10, 0.01))
+    with pytest.raises(NoEclipseFound, match="only 10 points"):
+        find_period(lc, progress=False)
+
+
+def test_span_too_short_is_no_eclipse():
+    rng = np.random.default_rng(5)
+    t = np.linspace(0.0, 0.4, 200)  # half of 0.4 d is shorter than the default 0.25 d shortest period
+    with pytest.raises(NoEclipseFound, match="spans only 0.4 d"):
+        find_period(LightCurve(t, 1 + 0.01 * rng.standard_normal(200), np.full(200, 0.01)), progress=False)
+
+
+def test_grid_too_large_is_input_error():
+    rng = np.random.default_rng(6)
+    t = np.linspace(0.0, 20.0, 300)
+    lc = LightCurve(t, 1 + 0.01 * rng.standard_normal(300), np.full(300, 0.01))
+    with pytest.raises(InputError, match="trial grid would have"):
+        find_period(lc, min_period=1e-7, progress=False)
+
+
+@pytest.mark.parametrize("args", [(0.25, 10.0, 20.0, 5.0), (0.1, 3.0, 50.0, 2.0), (0.02, 0.3, 5.0, 7.0),
+                                  (2.0, 40.0, 400.0, 1.0)])
+def test_grid_size_counts_the_grid(args):
+    # consistency with frequency_grid itself (regression): the count from the two steps is the
+    # number of np.arange elements, within the rounding of the last element of each piece
+    from eclipsekit._grid import grid_size
+
+    assert abs(grid_size(*args) - frequency_grid(*args).size) <= 2
+
+
+@pytest.mark.parametrize("bad", ["time", "flux", "weight"])
+def test_box_search_refuses_non_finite_values(bad):
+    # astropy's compiled engine is never handed NaN or infinite values (it can crash on NaN times)
+    t, y, dy = np.linspace(0.0, 10.0, 100), np.ones(100), np.full(100, 0.01)
+    if bad == "time":
+        t[3] = np.nan
+    elif bad == "flux":
+        y[3] = np.inf
+    else:
+        dy[3] = 1e-200  # 1/dy² overflows
+    with pytest.raises(InputError, match="box-least-squares"):
+        period_module._bls_chunk(t, y, dy, np.array([1.0, 2.0]), np.array([0.1]))
