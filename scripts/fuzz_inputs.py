@@ -244,7 +244,7 @@ def run_case(path: str, period: float, fit: bool = True) -> tuple[str, str, dict
     """
     from eclipsekit import EclipsekitError
     from eclipsekit.data import read_light_curve
-    from eclipsekit.fitting import fit_eclipses
+    from eclipsekit.fit import fit_eclipses
     from eclipsekit.period import find_period
 
     options: dict = {}

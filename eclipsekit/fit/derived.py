@@ -70,6 +70,9 @@ def depth_samples(samples: Mapping[str, np.ndarray], names: Iterable[str], free_
                                                if np.ptp(samples[n]) > 0])
         for arr in (dp, ds):
             okk = np.isfinite(arr[idx])
+            if not okk.any():  # the model failed on every exact row: no depths to regress on
+                arr[rest] = np.nan
+                continue
             coef, *_ = np.linalg.lstsq(X[idx][okk], arr[idx][okk], rcond=None)
             resid_d = arr[idx][okk] - X[idx][okk] @ coef
             arr[rest] = X[rest] @ coef + rng.choice(resid_d, rest.size)
