@@ -189,25 +189,27 @@ class PeriodSearch:
 
     def summary(self) -> str:
         """A readable multi-line report."""
+        from .summary import format_value
+
         lines = ["Period search (box least squares + phase dispersion minimisation)"]
         if not self.found:
             lines.append("  no significant periodic eclipse found")
         else:
             lines += [
-                f"  period            {self.period:.8f} ± {self.period_err:.8f} d",
-                f"  t0 (mid-primary)  {self.t0:.6f} ± {self.t0_err:.6f} d",
-                f"  primary           depth {self.depth_primary:.5f} ± {self.depth_primary_err:.5f}, "
+                f"  period            {format_value(self.period, self.period_err)} d",
+                f"  t0 (mid-primary)  {format_value(self.t0, self.t0_err)} d",
+                f"  primary           depth {format_value(self.depth_primary, self.depth_primary_err)}, "
                 f"duration {self.duration_primary:.4f} d, {self.n_eclipses_primary} eclipses observed",
             ]
             if self.secondary_detected:
                 lines.append(
-                    f"  secondary         depth {self.depth_secondary:.5f} ± {self.depth_secondary_err:.5f}, "
+                    f"  secondary         depth {format_value(self.depth_secondary, self.depth_secondary_err)}, "
                     f"duration {self.duration_secondary:.4f} d, phase {self.phase_secondary:.4f}, "
                     f"{self.n_eclipses_secondary} eclipses observed")
             else:
                 lines.append("  secondary         not detected")
             if self.ambiguous and np.isfinite(self.alternative_period):
-                lines.append(f"  ambiguous with    {self.alternative_period:.8f} d")
+                lines.append(f"  ambiguous with    {format_value(self.alternative_period, digits=9)} d")
         lines.append(f"  significance      SDE {self.significance:.1f} (threshold {self.sde_threshold:.1f})")
         lines.append(f"  grid              {self.n_periods} periods, {self.min_period:.4g}-{self.max_period:.4g} d, "
                      f"oversample {self.oversample:g}, method {self.method}"

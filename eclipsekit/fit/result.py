@@ -143,22 +143,26 @@ class EclipseFit:
         return self._problem.model(self.values, np.atleast_1d(np.asarray(time, float)))
 
     def summary(self) -> str:
-        lines = [f"Eclipse fit ({self.errors_method} uncertainties): {len(self.lc)} points, "
+        from ..summary import format_value
+
+        lines = [f"Eclipse fit, status {self.status} ({self.errors_method} uncertainties): {len(self.lc)} points, "
                  f"{self.n_free} free eclipse parameters + {self.n_baseline} baseline coefficients "
                  f"in {len(self.segments)} segment(s)",
                  f"reduced chi-square {self.redchi:.3f}, rms {self.rms * 1e6:.0f} ppm, BIC {self.bic:.1f}, "
                  f"{'converged' if self.success else 'NOT CONVERGED'}: {self.message}",
                  f"limb darkening: {self.ld_law}; exposure {self.exposure_time * 86400:.0f} s x {self.supersample}",
                  "",
-                 f"{'parameter':<26}{'value':>18}{'uncertainty':>14}  {'unit':<4} status"]
+                 f"{'parameter':<26}{'value ± uncertainty':>32}  {'unit':<4} status"]
         for name, val in self.values.items():
             err = self.uncertainties.get(name)
-            status = "free" if name in self.free else ("derived" if name in DERIVED else "fixed")
-            if name == "t0" or name == "period":
-                vs, es = f"{val:.7f}", ("" if err is None else f"{err:.7f}")
-            else:
-                vs, es = f"{val:.6g}", ("" if err is None else f"{err:.2g}")
-            lines.append(f"{name:<26}{vs:>18}{es:>14}  {self.units.get(name, ''):<4} {status}")
+            status = "free" if name in self.free else ("derived" if name in DERIVED or name not in self.fixed
+                                                       else "fixed")
+            digits = 11 if name in ("t0", "period") else 6
+            lines.append(f"{name:<26}{format_value(val, err, digits=digits):>32}  {self.units.get(name, ''):<4} "
+                         f"{status}")
+        if self.notes:
+            lines.append("")
+            lines += [f"note: {n}" for n in self.notes]
         if self.warnings:
             lines.append("")
             lines += [f"warning: {w}" for w in self.warnings]

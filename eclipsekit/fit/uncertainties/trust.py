@@ -18,7 +18,8 @@ import numpy as np
 #: geometric parameters whose uncertainties the user relies on
 KEY = ("radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio", "third_light", "ecosw", "esinw")
 
-MAX_CORRELATION = 0.995   # |rho| above which two parameters are nearly degenerate
+MAX_CORRELATION = 0.999   # |rho| above which two parameters are nearly degenerate (a linear correlation alone
+#                           is Gaussian; the profile tests below catch the curved valleys)
 MAX_RELATIVE_ERROR = 0.10  # relative error above which a linear approximation rarely holds
 PROFILE_RANGE = (0.6, 1.6)  # accepted delta-chi2 at +-1 sigma, in units of the expected 1
 MAX_ASYMMETRY = 0.35       # accepted |delta-chi2(+1 sigma) - delta-chi2(-1 sigma)|
