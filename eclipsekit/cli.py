@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import re
 import shlex
 import sys
-import math
 import warnings
 from collections.abc import Sequence
 from typing import Any
@@ -196,7 +196,9 @@ def _fit_choices(args: argparse.Namespace) -> dict[str, Any]:
         try:
             fixed[name] = float(text)
         except ValueError:
-            raise InputError(f"--fix {token}: VALUE must be a number, as in --fix inclination=89.5") from None
+            fixed[name] = math.nan
+        if not math.isfinite(fixed[name]):
+            raise InputError(f"--fix {token}: VALUE must be a number, as in --fix inclination=89.5")
         lo, hi = bounds(name, args.ld_law)
         if not (lo is None or lo <= fixed[name]) or not (hi is None or fixed[name] <= hi):
             raise InputError(f"--fix {token}: VALUE must lie within the bounds [{lo}, {hi}] of {name}")

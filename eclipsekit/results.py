@@ -21,11 +21,10 @@ from astropy.table import Table
 from ._validate import finite_or_none
 from ._version import __version__
 from .errors import InputError
+from .summary import is_asymmetric
 
 __all__ = [
     "SECTIONS",
-    "ASYMMETRY",
-    "is_asymmetric",
     "quantity",
     "result_dict",
     "parameters_table",
@@ -73,12 +72,6 @@ SECTIONS: dict[str, dict[str, str]] = {
 _ONLY_WHEN_FITTED = {"gamma_offset", "jitter_primary", "jitter_secondary"}
 
 
-#: A 68% interval is reported as asymmetric when its two sides differ by more than this
-#: fraction of the larger one (below, the sampling noise of a few thousand draws and the
-#: two-figure rounding of the printed uncertainty hide the difference).
-ASYMMETRY = 0.2
-
-
 def quantity(value: Any, uncertainty: Any = None, unit: str = "", *, fixed: bool = False,
              interval: tuple[float, float] | None = None) -> dict[str, Any]:
     """One quantity in the ``result.json`` form.
@@ -91,14 +84,6 @@ def quantity(value: Any, uncertainty: Any = None, unit: str = "", *, fixed: bool
     if interval is not None:
         out["interval_68"] = [finite_or_none(interval[0]), finite_or_none(interval[1])]
     return out
-
-
-def is_asymmetric(value: float, interval: tuple[float, float] | None) -> bool:
-    """Whether the interval's sides around ``value`` differ by more than :data:`ASYMMETRY` of the larger."""
-    if interval is None or finite_or_none(value) is None or any(finite_or_none(x) is None for x in interval):
-        return False
-    below, above = value - interval[0], interval[1] - value
-    return abs(above - below) > ASYMMETRY * max(abs(above), abs(below))
 
 
 def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]:

@@ -6,9 +6,14 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
-from .results import is_asymmetric
 
-__all__ = ["format_value", "format_summary"]
+__all__ = ["ASYMMETRY", "is_asymmetric", "format_value", "format_summary"]
+
+#: A 68% interval is asymmetric when its two sides differ by more than this fraction of the
+#: larger one (below that, the sampling noise of a few thousand draws and the two-figure
+#: rounding of the printed uncertainty hide the difference).  result.json then carries the
+#: interval and the summary prints ``value +upper/-lower``.
+ASYMMETRY = 0.2
 
 _LABELS = {
     "period": "Period", "t0": "Epoch of primary minimum",
@@ -40,6 +45,14 @@ _TITLES = {
 }
 
 
+def is_asymmetric(value: float | None, interval: tuple[float, float] | None) -> bool:
+    """Whether the sides of ``interval`` around ``value`` differ by more than :data:`ASYMMETRY` of the larger."""
+    if interval is None or value is None or not all(x is not None and math.isfinite(x) for x in (value, *interval)):
+        return False
+    below, above = value - interval[0], interval[1] - value
+    return abs(above - below) > ASYMMETRY * max(abs(above), abs(below))
+
+
 def format_value(value: float | None, uncertainty: float | None = None, *, digits: int = 6,
                  interval: tuple[float, float] | None = None) -> str:
     """``value ± uncertainty`` (or ``value +upper/-lower``), rounded to the precision of the uncertainty.
@@ -59,7 +72,7 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
         Significant figures of a value without uncertainty.
     interval : (float, float), optional
         Central 68% interval (lower, upper).  When its sides differ by more than
-        :data:`eclipsekit.results.ASYMMETRY` of the larger (and ``value`` lies inside it)
+        :data:`ASYMMETRY` of the larger (and ``value`` lies inside it)
         the value prints as ``value +upper/-lower``, both sides to two significant
         figures of the smaller; otherwise as ``value ± uncertainty``.
 

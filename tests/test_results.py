@@ -126,8 +126,7 @@ def test_format_value(value, err, text):
 
 
 # -- fixed values, asymmetric intervals, priors, notes, statuses ------------------------------------
-from eclipsekit.results import ASYMMETRY, is_asymmetric  # noqa: E402
-from eclipsekit.summary import format_summary  # noqa: E402
+from eclipsekit.summary import ASYMMETRY, format_summary, is_asymmetric  # noqa: E402
 
 
 def test_quantity_marks_fixed_and_interval():
