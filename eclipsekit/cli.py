@@ -1,6 +1,7 @@
 """Command line: ``eclipsekit <command> ...``, a thin layer over the Python API.
 
-Exit codes: 0 ok, 1 the analysis could not conclude (no eclipse found, fit failed),
+Exit codes: 0 an answer (status "ok", or "poor_fit" / "caution" with the caveat on the
+summary's first line), 1 the analysis could not conclude (no eclipse found, fit failed),
 2 bad input or usage.
 """
 
@@ -8,10 +9,13 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
+import re
 import shlex
 import sys
 import warnings
 from collections.abc import Sequence
+from typing import Any
 
 from ._version import __version__
 from .errors import EclipsekitError, EclipsekitWarning, InputError
@@ -76,18 +80,33 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
                    help="integration points per exposure with --exposure-time (default: the fit's own)")
     g.add_argument("--ld-law", choices=["uniform", "linear", "quadratic", "power-2"], default="quadratic",
                    help="limb-darkening law (default: quadratic)")
-    g.add_argument("--ld1", type=float, nargs="+", metavar="C",
-                   help="limb-darkening coefficients of the primary (default: typical values)")
-    g.add_argument("--ld2", type=float, nargs="+", metavar="C",
-                   help="limb-darkening coefficients of the secondary (default: typical values)")
-    g.add_argument("--free", nargs="+", default=[], metavar="PARAM",
-                   help="parameters to fit that are fixed by default (e.g. third_light ld1_1 ld2_1)")
-    g.add_argument("--fix", nargs="+", default=[], metavar="PARAM", help="parameters to hold fixed")
-    g.add_argument("--errors", choices=["covariance", "mcmc", "permutation"], default="covariance",
-                   help="how uncertainties are estimated (default: covariance)")
+    # the list options extend (repeatable) and give back a light-curve FILE they swallowed: _recover_file
+    g.add_argument("--ld1", nargs="+", action="extend", metavar="C",
+                   help="limb-darkening coefficients of the primary: the centre of the fitted limb darkening's "
+                        "weak prior (default: typical values)")
+    g.add_argument("--ld2", nargs="+", action="extend", metavar="C",
+                   help="limb-darkening coefficients of the secondary (as --ld1)")
+    g.add_argument("--free", nargs="+", action="extend", default=[], metavar="NAME",
+                   help="parameters to fit that are fixed by default (e.g. third_light, eccentricity)")
+    g.add_argument("--fix", nargs="+", action="extend", default=[], metavar="NAME[=VALUE]",
+                   help="parameters to hold fixed, at VALUE or else at the start value (period, t0 in days)")
+    g.add_argument("--prior", nargs="+", action="extend", default=[], metavar="NAME=VALUE±SIGMA",
+                   help="Gaussian prior on a fitted parameter or on light_ratio (L2/L1); also +- or +/-")
+    g.add_argument("--errors", choices=_ERROR_CHOICES, default="auto",
+                   help="how uncertainties are estimated (default: auto, the covariance matrix when it can "
+                        "be trusted, else an MCMC)")
+    g.add_argument("--mcmc-seconds", type=_positive_float, metavar="S",
+                   help="time budget of the MCMC (default with auto: 60 s per 20,000 points)")
     g.add_argument("--mcmc-walkers", type=int, default=32, metavar="N", help="MCMC walkers (default: 32)")
     g.add_argument("--mcmc-steps", type=int, default=2000, metavar="N", help="MCMC steps per walker (default: 2000)")
     g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
+
+
+#: the --errors choices (eclipsekit.fit.settings.ERROR_METHODS, not imported here to keep --help fast)
+_ERROR_CHOICES = ("auto", "covariance", "mcmc", "permutation")
+
+#: list options that can swallow the positional FILE: dest -> option
+_LIST_OPTIONS = {"free": "--free", "fix": "--fix", "prior": "--prior", "ld1": "--ld1", "ld2": "--ld2"}
 
 
 def _dimension_options(p: argparse.ArgumentParser, joint: bool = False) -> None:
@@ -114,6 +133,128 @@ def _read_lc(args: argparse.Namespace):
 
     return read_light_curve(args.file, time_col=args.time_col, flux_col=args.flux_col, err_col=args.err_col,
                             mag_col=args.mag_col, time_system=args.time_system, time_offset=args.time_offset)
+
+
+# ---- eclipse-fit options ------------------------------------------------------------
+def _known_names() -> set[str]:
+    """Every name --free, --fix and --prior accept under some limb-darkening law."""
+    from .fit.parameters import ALIASES, LD_LAWS, fittable_names
+
+    return {n for law in LD_LAWS for n in fittable_names(law)} | set(ALIASES) | {"light_ratio"}
+
+
+def _is_item(dest: str, token: str, known: set[str]) -> bool:
+    """Whether ``token`` reads as a value of the list option ``dest`` (else it may be the FILE it swallowed)."""
+    if dest in ("ld1", "ld2"):
+        try:
+            float(token)
+        except ValueError:
+            return False
+        return True
+    return token.split("=", 1)[0].strip() in known
+
+
+def _recover_file(args: argparse.Namespace) -> None:
+    """Give ``args.file`` back the light-curve FILE a list option took (``--free a b FILE``).
+
+    A list option takes every following word up to the next option; a word that is no
+    parameter name (or number, for --ld1/--ld2) cannot be its value, so when FILE is
+    missing the last such word is FILE.
+    """
+    if args.file is not None:
+        return
+    known = _known_names()
+    strays = [(dest, token) for dest in _LIST_OPTIONS for token in (getattr(args, dest) or [])
+              if not _is_item(dest, token, known)]
+    if not strays:
+        raise InputError(f"give the light-curve FILE, e.g. `eclipsekit {args.command} lc.csv`")
+    dest, token = strays[-1]
+    values = getattr(args, dest)
+    del values[len(values) - 1 - values[::-1].index(token)]
+    args.file = token
+
+
+def _fit_choices(args: argparse.Namespace) -> dict[str, Any]:
+    """``fix``, ``free``, ``fixed`` and ``priors`` for :func:`~eclipsekit.analyse` from --fix, --free, --prior.
+
+    Raises
+    ------
+    InputError
+        An unknown name, a --fix VALUE that is no number, a --prior without a positive SIGMA.
+    """
+    from .fit.parameters import ALIASES, bounds, fittable_names
+
+    valid = fittable_names(args.ld_law)
+    fix: list[str] = []
+    fixed: dict[str, float] = {}
+    for token in args.fix:
+        name, sep, text = (part.strip() for part in token.partition("="))
+        _check_name("--fix", name, valid + ([] if sep else list(ALIASES)))
+        if not sep:
+            fix.append(name)
+            continue
+        try:
+            fixed[name] = float(text)
+        except ValueError:
+            fixed[name] = math.nan
+        if not math.isfinite(fixed[name]):
+            raise InputError(f"--fix {token}: VALUE must be a number, as in --fix inclination=89.5")
+        lo, hi = bounds(name, args.ld_law)
+        if not (lo is None or lo <= fixed[name]) or not (hi is None or fixed[name] <= hi):
+            raise InputError(f"--fix {token}: VALUE must lie within the bounds [{lo}, {hi}] of {name}")
+    for name in args.free:
+        _check_name("--free", name, valid + list(ALIASES))
+    return {"fix": tuple(fix), "free": tuple(args.free), "fixed": fixed,
+            "priors": dict(_prior(token, valid) for token in args.prior)}
+
+
+def _prior(token: str, valid: list[str]) -> tuple[str, tuple[float, float]]:
+    """``NAME=VALUE±SIGMA`` (also ``+-``, ``+/-``) as (name, (value, sigma)); sigma must be positive."""
+    from .dimensions import parse_value_error
+
+    name, _, text = (part.strip() for part in token.partition("="))
+    _check_name("--prior", name, valid + ["light_ratio"])
+    try:
+        value, sigma = parse_value_error(text)
+    except InputError:
+        sigma = math.nan
+    if not sigma > 0:
+        raise InputError(f"--prior {token}: give the prior as NAME=VALUE±SIGMA with a positive SIGMA "
+                         f"(or VALUE+-SIGMA), e.g. --prior light_ratio=0.19±0.02")
+    return name, (value, sigma)
+
+
+def _check_name(option: str, name: str, valid: list[str]) -> None:
+    if name not in valid:
+        raise InputError(f"{option}: unknown parameter {name!r}; valid: {', '.join(sorted(set(valid)))}")
+
+
+def _floats(option: str, tokens: list[str] | None) -> list[float] | None:
+    if tokens is None:
+        return None
+    try:
+        return [float(t) for t in tokens]
+    except ValueError:
+        raise InputError(f"{option} takes numbers (limb-darkening coefficients), got {' '.join(tokens)!r}") from None
+
+
+#: Python argument names in the package's messages -> the command-line options that set them
+_OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--prior", "errors": "--errors",
+              "mcmc_seconds": "--mcmc-seconds", "mcmc_walkers": "--mcmc-walkers", "mcmc_steps": "--mcmc-steps",
+              "exposure_time": "--exposure-time", "supersample": "--supersample", "ld_law": "--ld-law",
+              "ld_primary": "--ld1", "ld_secondary": "--ld2", "period": "--period", "t0": "--t0",
+              "min_period": "--min-period", "max_period": "--max-period", "seed": "--seed"}
+
+
+def _in_option_terms(message: str) -> str:
+    """The package's messages name Python arguments (`priors['x']`); on the command line, name the options."""
+    def option(m: re.Match) -> str:
+        name, key = m.group(1), m.group(2)
+        if name not in _OPTION_OF:
+            return m.group(0)
+        return _OPTION_OF[name] + (" " + key.strip("[]'\"") if key else "")
+
+    return re.sub(r"`(\w+)(\[[^\]`]*\])?`", option, message)
 
 
 def _command_line(argv: Sequence[str] | None) -> str:
@@ -180,21 +321,22 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         lc_path, rv_path = sample_paths()
         lc, rv = str(lc_path), str(rv_path)
         # spectroscopic temperatures "measured" for the invented demo system (see samples/README.md);
-        # the sample's deep, well-sampled eclipses constrain the linear limb-darkening coefficients,
-        # so they are fitted rather than held at typical values
+        # no fit options: the defaults are meant to be right
         args.teff1, args.teff2 = (7550.0, 150.0), (6600.0, 150.0)
-        args.free = ["ld1_1", "ld2_1"]
+        choices: dict[str, Any] = {}
+        fit_options: dict[str, Any] = {}
     else:
+        choices = _fit_choices(args)
+        fit_options = {"ld_law": args.ld_law, "ld_primary": _floats("--ld1", args.ld1),
+                       "ld_secondary": _floats("--ld2", args.ld2), "mcmc_walkers": args.mcmc_walkers,
+                       "mcmc_steps": args.mcmc_steps}
+        for option in ("supersample", "mcmc_seconds"):
+            if getattr(args, option) is not None:
+                fit_options[option] = getattr(args, option)
         lc = _read_lc(args)
         rv = getattr(args, "rv", None)
     prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
     exposure = None if getattr(args, "exposure_time", None) is None else args.exposure_time / 86400.0
-    fit_options = {}
-    if args.command != "demo":
-        fit_options = {"ld_law": args.ld_law, "ld_primary": args.ld1, "ld_secondary": args.ld2,
-                       "mcmc_walkers": args.mcmc_walkers, "mcmc_steps": args.mcmc_steps}
-        if args.supersample is not None:
-            fit_options["supersample"] = args.supersample
     analysis = analyse(
         lc, rv,
         k_primary=getattr(args, "k1", None), k_secondary=getattr(args, "k2", None),
@@ -202,15 +344,14 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         parallax=getattr(args, "parallax", None),
         min_period=getattr(args, "min_period", None), max_period=getattr(args, "max_period", None),
         period=getattr(args, "period", None), t0=getattr(args, "t0", None), exposure_time=exposure,
-        errors=getattr(args, "errors", "covariance"), fix=tuple(getattr(args, "fix", ())),
-        free=tuple(getattr(args, "free", ())), progress=not args.quiet, seed=getattr(args, "seed", None),
-        joint=getattr(args, "joint", False),
-        command=args.command_line, fit_options=fit_options)
+        errors=getattr(args, "errors", "auto"), progress=not args.quiet, seed=getattr(args, "seed", None),
+        joint=getattr(args, "joint", False), command=args.command_line, fit_options=fit_options, **choices)
     written = analysis.write(args.out, overwrite=True)
     print(analysis.summary())
     print()
     print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
-    return 0 if analysis.status == "ok" else 1
+    # "poor_fit" and "caution" are answers with a caveat (on the summary's first line); the rest did not conclude
+    return 0 if analysis.status in ("ok", "poor_fit", "caution") else 1
 
 
 def _cmd_dimensions(args: argparse.Namespace) -> int:
@@ -284,7 +425,8 @@ def build_parser() -> argparse.ArgumentParser:
             ("fit", "find the period and fit both eclipses; write the results", False),
             ("run", "the whole job: period, eclipse fit, velocities, absolute dimensions, files", True)):
         p = sub.add_parser(name, help=help_text)
-        p.add_argument("file", help="light-curve file")
+        # optional for argparse only: a list option may have swallowed it (_recover_file gives it back)
+        p.add_argument("file", nargs="?", metavar="FILE", help="light-curve file (required)")
         _reader_options(p)
         _period_options(p)
         _fit_options(p)
@@ -293,6 +435,7 @@ def build_parser() -> argparse.ArgumentParser:
         _output_options(p, "eclipsekit-results")
         _common(p)
         p.set_defaults(func=_cmd_analyse)
+        p.usage = p.format_usage().removeprefix("usage: ").replace("[FILE]", "FILE").strip()
 
     p = sub.add_parser("dimensions", help="masses, radii, gravities (and luminosities) from a result.json")
     p.add_argument("result", help="result.json written by `eclipsekit fit` or `run`")
@@ -320,6 +463,12 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(exc.code or 0)
     debug = getattr(args, "debug", False)
     args.command_line = _command_line(argv)
+    if args.command in ("fit", "run"):
+        try:
+            _recover_file(args)
+        except InputError as exc:
+            print(f"eclipsekit: error: {exc}", file=sys.stderr)
+            return 2
     with warnings.catch_warnings():
         if getattr(args, "quiet", False):
             warnings.simplefilter("ignore", EclipsekitWarning)
@@ -331,7 +480,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         except EclipsekitError as exc:
             if debug:
                 raise
-            print(f"eclipsekit: error: {exc}", file=sys.stderr)
+            print(f"eclipsekit: error: {_in_option_terms(str(exc))}", file=sys.stderr)
             return 2 if isinstance(exc, InputError) else 1
         except OSError as exc:  # e.g. an output folder that cannot be written
             if debug:

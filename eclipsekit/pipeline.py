@@ -44,8 +44,13 @@ class Analysis:
     eclipse_fit : EclipseFit or None
     orbit : OrbitFit or None
     dimensions : AbsoluteDimensions or None
-    status : {'ok', 'no_eclipse_found'}
+    status : {'ok', 'poor_fit', 'caution', 'no_eclipse_found'}
+        The eclipse fit's status when it ran (:attr:`EclipseFit.status
+        <eclipsekit.fit.EclipseFit>`: "poor_fit" when the model does not describe the
+        eclipses, "caution" when a warning says the answer may be biased), else
+        "no_eclipse_found" when the period search found nothing.
     message : str
+        One line: why the status is not "ok", and where the analysis stopped.
     warnings : list of str
         Every warning issued along the way.
     timings : dict of str -> float
@@ -220,9 +225,11 @@ def analyse(
     period: float | None = None,
     t0: float | None = None,
     exposure_time: Any = None,
-    errors: str = "covariance",
+    errors: str = "auto",
     fix: tuple[str, ...] = (),
     free: tuple[str, ...] = (),
+    fixed: dict[str, Any] | None = None,
+    priors: dict[str, Any] | None = None,
     progress: bool = True,
     seed: int | None = None,
     joint: bool = False,
@@ -250,10 +257,17 @@ def analyse(
     exposure_time : float or Quantity, optional
         Integration time of each point (days, or a Quantity).  Defaults to the value
         the reader found in the file header.
-    errors : {'covariance', 'mcmc', 'permutation'}
-        How the eclipse fit's uncertainties are estimated.
+    errors : {'auto', 'covariance', 'mcmc', 'permutation'}
+        How the eclipse fit's uncertainties are estimated; "auto" uses the covariance
+        matrix when it can be trusted, else an MCMC (see :func:`~eclipsekit.fit_eclipses`).
     fix, free : sequence of str
-        Eclipse-fit parameters to fix or to free.
+        Eclipse-fit parameters to hold fixed at their start values, or to fit.
+    fixed : dict, optional
+        Eclipse-fit parameters held fixed at the values given, e.g. ``{"inclination": 89.5}``
+        (period and t0 in days).
+    priors : dict, optional
+        Gaussian priors ``{name: (value, sigma)}`` on fitted parameters or on the light
+        ratio ``light_ratio`` (L2/L1, e.g. from spectroscopy).
     progress : bool
         Show progress bars.
     seed : int, optional
@@ -270,7 +284,12 @@ def analyse(
     -------
     Analysis
         ``status`` is ``"no_eclipse_found"`` when the period search finds nothing
-        significant; the later steps are then skipped.
+        significant (the later steps are then skipped), else the eclipse fit's status.
+
+    Raises
+    ------
+    InputError
+        Bad or conflicting options, checked before the period search.
     """
     timings: dict[str, float] = {}
     with warnings.catch_warnings(record=True) as caught:
@@ -283,8 +302,9 @@ def analyse(
                             user_inputs={k: _record(v) for k, v in measured.items() if v is not None})
         options = _RunOptions.check(
             lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
-            exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free), progress=progress,
-            seed=seed, joint=joint, fit_options=dict(fit_options or {}))
+            exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free),
+            fixed=dict(fixed or {}), priors=dict(priors or {}), progress=progress, seed=seed, joint=joint,
+            fit_options=dict(fit_options or {}))
         start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
             _fit_light_curve(analysis, start, options)
@@ -309,6 +329,8 @@ class _RunOptions:
     errors: str
     fix: tuple[str, ...]
     free: tuple[str, ...]
+    fixed: dict[str, Any]
+    priors: dict[str, Any]
     progress: bool
     seed: int | None
     joint: bool
@@ -317,8 +339,9 @@ class _RunOptions:
     @classmethod
     def check(cls, lc: LightCurve, velocities: VelocityCurve | None, *, exposure_time: Any,
               **options: Any) -> _RunOptions:
-        """Refuse conflicting options; find the exposure time and warn when long exposures go unmodelled."""
+        """Refuse bad or conflicting options; find the exposure time and warn when long exposures go unmodelled."""
         measured = options["measured"]
+        _check_fit_options(lc, options)
         if velocities is not None and (measured["k_primary"] is not None or measured["k_secondary"] is not None):
             raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
         if options["joint"] and velocities is None:
@@ -328,6 +351,22 @@ class _RunOptions:
             _notes.warn(f"median cadence is {lc.cadence * 1440:.1f} min and no exposure time is known: eclipses "
                         "are smeared and the fitted radii and inclination will be biased; give --exposure-time")
         return cls(exposure=exposure, **options)
+
+
+def _check_fit_options(lc: LightCurve, options: dict[str, Any]) -> None:
+    """Validate the eclipse fit's options (names, fixed values, priors, ...) now, not after the period search."""
+    import inspect
+
+    from .errors import FitError
+    from .fit.settings import make_settings
+
+    accepted = inspect.signature(make_settings).parameters  # fit_options may also hold joint-fit options
+    try:
+        make_settings(lc, errors=options["errors"], fix=options["fix"], free=options["free"],
+                      fixed=options["fixed"], priors=options["priors"],
+                      **{k: v for k, v in options["fit_options"].items() if k in accepted})
+    except FitError:
+        pass  # too few points: the fit itself says so, in its place
 
 
 def _read_inputs(lc: LightCurve | str | os.PathLike, velocities: VelocityCurve | str | os.PathLike | None
@@ -366,9 +405,13 @@ def _fit_light_curve(analysis: Analysis, start: Any, options: _RunOptions) -> No
 
     with _Timer(analysis.timings, "joint fit" if options.joint else "eclipse fit"):
         analysis.eclipse_fit = fit_eclipses(
-            analysis.lc, start, errors=options.errors, fix=options.fix, free=options.free,
-            exposure_time=options.exposure or 0.0, progress=options.progress, seed=options.seed,
-            velocities=analysis.rv if options.joint else None, **options.fit_options)
+            analysis.lc, start, errors=options.errors, fix=options.fix, free=options.free, fixed=options.fixed,
+            priors=options.priors, exposure_time=options.exposure or 0.0, progress=options.progress,
+            seed=options.seed, velocities=analysis.rv if options.joint else None, **options.fit_options)
+    fit = analysis.eclipse_fit
+    analysis.status = fit.status
+    if fit.status != "ok":
+        analysis.message = "; ".join(fit.status_reasons) or fit.status.replace("_", " ")
 
 
 def _fit_orbit_and_dimensions(analysis: Analysis, options: _RunOptions) -> None:
@@ -382,8 +425,8 @@ def _fit_orbit_and_dimensions(analysis: Analysis, options: _RunOptions) -> None:
         with _Timer(analysis.timings, "velocity fit"):
             analysis.orbit = fit_velocities(analysis.rv, analysis.eclipse_fit, seed=options.seed)
     if analysis.orbit is None and options.measured["k_primary"] is None:
-        analysis.message = ("no velocities given: stopped after the eclipse fit "
-                            "(give --rv or --k1/--k2 for masses and radii)")
+        stop = "no velocities given: stopped after the eclipse fit (give --rv or --k1/--k2 for masses and radii)"
+        analysis.message = f"{analysis.message}; {stop}" if analysis.message else stop
         return
     with _Timer(analysis.timings, "absolute dimensions"):
         analysis.dimensions = absolute_dimensions(analysis.eclipse_fit, analysis.orbit, **options.measured,

@@ -1,7 +1,8 @@
 """Writing and reading results: ``result.json``, ECSV tables and the text summary.
 
 Every quantity is written as ``{"value": float, "uncertainty": float | null, "unit": str}``
-(``../shared/DESIGN.md``).  Files are written under a temporary name in the output
+(``../shared/DESIGN.md``), with ``"fixed": true`` when it was held fixed and
+``"interval_68": [lower, upper]`` when its central 68% interval is asymmetric.  Files are written under a temporary name in the output
 folder and renamed into place, so an interrupted run never leaves a half-written file.
 """
 
@@ -20,6 +21,7 @@ from astropy.table import Table
 from ._validate import finite_or_none
 from ._version import __version__
 from .errors import InputError
+from .summary import is_asymmetric
 
 __all__ = [
     "SECTIONS",
@@ -44,6 +46,9 @@ SECTIONS: dict[str, dict[str, str]] = {
     "photometry": {
         "surface_brightness_ratio": "", "light_ratio": "", "third_light": "",
         "ld1_1": "", "ld1_2": "", "ld2_1": "", "ld2_2": "",
+        # the fitted limb-darkening combinations (eclipsekit.limb_darkening), when fitted
+        "ld1_sum": "", "ld1_diff": "", "ld2_sum": "", "ld2_diff": "",
+        "ld1_h1": "", "ld1_h2": "", "ld2_h1": "", "ld2_h2": "",
         "depth_primary": "", "depth_secondary": "",
     },
     "spectroscopy": {
@@ -67,15 +72,26 @@ SECTIONS: dict[str, dict[str, str]] = {
 _ONLY_WHEN_FITTED = {"gamma_offset", "jitter_primary", "jitter_secondary"}
 
 
-def quantity(value: Any, uncertainty: Any = None, unit: str = "") -> dict[str, Any]:
-    """One quantity in the ``result.json`` form."""
-    return {"value": finite_or_none(value), "uncertainty": finite_or_none(uncertainty), "unit": unit}
+def quantity(value: Any, uncertainty: Any = None, unit: str = "", *, fixed: bool = False,
+             interval: tuple[float, float] | None = None) -> dict[str, Any]:
+    """One quantity in the ``result.json`` form.
+
+    ``fixed`` adds ``"fixed": true``; ``interval`` (lower, upper) adds ``"interval_68"``.
+    """
+    out = {"value": finite_or_none(value), "uncertainty": finite_or_none(uncertainty), "unit": unit}
+    if fixed:
+        out["fixed"] = True
+    if interval is not None:
+        out["interval_68"] = [finite_or_none(interval[0]), finite_or_none(interval[1])]
+    return out
 
 
 def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]:
     """Collect the named quantities from result objects with ``values``/``uncertainties``.
 
     Units are those of :data:`SECTIONS` (astropy unit strings), whatever the object's own labels.
+    A quantity in the source's ``fixed`` is marked fixed; one whose interval in the
+    source's ``intervals`` is asymmetric (:func:`is_asymmetric`) carries it.
 
     A later source overrides an earlier one (e.g. the eclipse fit's period over the
     period search's).
@@ -87,14 +103,38 @@ def _section(sources: Iterable[Any], names: Mapping[str, str]) -> dict[str, Any]
         values = getattr(src, "values", {}) or {}
         uncs = getattr(src, "uncertainties", {}) or {}
         free = getattr(src, "free", None)
+        fixed = set(held_fixed(src))
+        intervals = getattr(src, "intervals", None) or {}
         for name, unit in names.items():
             if name in _ONLY_WHEN_FITTED and free is not None and name not in free:
                 continue
             # fit statistics such as rms_primary are attributes rather than fitted values
             value = values.get(name, getattr(src, name, None))
             if finite_or_none(value) is not None:
-                out[name] = quantity(value, uncs.get(name), unit)
+                interval = intervals.get(name)
+                out[name] = quantity(value, uncs.get(name), unit, fixed=name in fixed,
+                                     interval=interval if is_asymmetric(value, interval) else None)
     return out
+
+
+def held_fixed(fit: Any) -> list[str]:
+    """Names of the model parameters a fit held fixed: its ``fixed`` list.
+
+    For a fit that does not list them (a velocity fit, or an eclipse fit made before
+    ``EclipseFit.fixed`` was filled), the model parameters it neither fitted nor computed
+    from fitted limb-darkening combinations.
+    """
+    if getattr(fit, "fixed", None):
+        return list(fit.fixed)
+    free, law = getattr(fit, "free", None), getattr(fit, "ld_law", None)
+    if free is None or law is None:
+        return []
+    from .fit.parameters import ld_fit_names, ld_names, parameter_names
+
+    coefficients = set(ld_names(law))
+    combined = {s for s in (1, 2) if any(n in free for n in ld_fit_names(law, s) if n not in coefficients)}
+    return [n for n in parameter_names(law)
+            if n not in free and not (n in coefficients and int(n[2]) in combined)]
 
 
 def result_dict(analysis: Any) -> dict[str, Any]:
@@ -179,19 +219,26 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
     section.update({
         "method": ("joint least squares of light curve and velocities (lmfit)"
                    if getattr(fit, "orbit", None) is not None else "least squares (lmfit)"),
-        "uncertainties": fit.errors_method,
+        "uncertainties": fit.errors_method,  # the method used ("auto" resolved to covariance or mcmc)
+        "errors_reasons": list(fit.diagnostics.get("errors_reasons") or []),
         "reduced_chi_square": finite_or_none(fit.redchi),
         "rms": quantity(fit.rms, None, ""),
         "bic": finite_or_none(fit.bic),
         "n_free_parameters": int(fit.n_free),
         "free_parameters": list(fit.free),
+        "fixed_parameters": held_fixed(fit),
+        "priors": {name: {"value": finite_or_none(mu), "sigma": finite_or_none(sd)}
+                   for name, (mu, sd) in _priors_used(fit).items()},
         "n_samples": int(len(next(iter(fit.samples.values())))) if fit.samples else 0,
         "exposure_time": quantity((fit.exposure_time or 0.0) * 86400.0, None, "s"),
         "supersample": int(fit.supersample or 1),
         "success": bool(fit.success),
         "message": fit.message,
+        "status": getattr(fit, "status", "ok"),
+        "status_reasons": list(getattr(fit, "status_reasons", []) or []),
+        "notes": list(getattr(fit, "notes", []) or []),
     })
-    mcmc = getattr(fit, "mcmc", None)
+    mcmc = fit.diagnostics.get("mcmc")
     if mcmc:
         section["mcmc"] = {k: (finite_or_none(v) if isinstance(v, (int, float, np.floating)) else v)
                            for k, v in mcmc.items()}
@@ -200,18 +247,27 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
     return section
 
 
+def _priors_used(fit: Any) -> dict[str, tuple[float, float]]:
+    """Every Gaussian prior of the fit: its ``priors``, or for a fit that does not list them
+    (made before ``EclipseFit.priors`` was filled) those of its fitted problem."""
+    if getattr(fit, "priors", None):
+        return dict(fit.priors)
+    mapping = getattr(getattr(fit, "_problem", None), "mapping", None)
+    return dict(getattr(mapping, "priors", None) or {})
+
+
 def parameters_table(result: Mapping[str, Any]) -> Table:
     """All quantities of a ``result.json`` dict as an astropy Table, one row per quantity."""
     rows = []
     for section in SECTIONS:
         for name, q in (result.get(section) or {}).items():
             if isinstance(q, dict) and "value" in q:
-                rows.append((section, name, q["value"], q["uncertainty"], q["unit"]))
-    table = Table(rows=rows or None, names=("section", "name", "value", "uncertainty", "unit"),
-                  dtype=(str, str, float, float, str))
+                rows.append((section, name, q["value"], q["uncertainty"], q["unit"], bool(q.get("fixed", False))))
+    table = Table(rows=rows or None, names=("section", "name", "value", "uncertainty", "unit", "fixed"),
+                  dtype=(str, str, float, float, str, bool))
     table["value"] = [np.nan if r[2] is None else r[2] for r in rows]
     table["uncertainty"] = [np.nan if r[3] is None else r[3] for r in rows]
-    table.meta["comments"] = ["eclipsekit results; NaN uncertainty = not determined (fixed parameter)"]
+    table.meta["comments"] = ["eclipsekit results; NaN uncertainty = not determined; fixed = held at its value"]
     return table
 
 
@@ -334,7 +390,8 @@ def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: 
     content = dict(light.content)
     content["eclipsekit_version"] = __version__
     content["command"] = command
-    content["status"] = "ok"
+    # the light-curve fit's caveat still applies to the masses and radii
+    content["status"] = content.get("status") if content.get("status") in ("poor_fit", "caution") else "ok"
     content["spectroscopy"] = _section([dimensions, orbit], SECTIONS["spectroscopy"])
     content["absolute"] = _section([dimensions], SECTIONS["absolute"])
     content["absolute"]["uncertainty_budget"] = dict(getattr(dimensions, "budget", {}) or {})

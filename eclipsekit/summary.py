@@ -6,7 +6,14 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
-__all__ = ["format_value", "format_summary"]
+
+__all__ = ["ASYMMETRY", "is_asymmetric", "format_value", "format_summary"]
+
+#: A 68% interval is asymmetric when its two sides differ by more than this fraction of the
+#: larger one (below that, the sampling noise of a few thousand draws and the two-figure
+#: rounding of the printed uncertainty hide the difference).  result.json then carries the
+#: interval and the summary prints ``value +upper/-lower``.
+ASYMMETRY = 0.2
 
 _LABELS = {
     "period": "Period", "t0": "Epoch of primary minimum",
@@ -17,6 +24,9 @@ _LABELS = {
     "third_light": "Third light", "depth_primary": "Primary depth", "depth_secondary": "Secondary depth",
     "ld1_1": "LD primary, 1st coefficient", "ld1_2": "LD primary, 2nd coefficient",
     "ld2_1": "LD secondary, 1st coefficient", "ld2_2": "LD secondary, 2nd coefficient",
+    "ld1_sum": "LD primary, u1 + u2", "ld1_diff": "LD primary, u1 - u2",
+    "ld2_sum": "LD secondary, u1 + u2", "ld2_diff": "LD secondary, u1 - u2",
+    "ld1_h1": "LD primary, h1", "ld1_h2": "LD primary, h2", "ld2_h1": "LD secondary, h1", "ld2_h2": "LD secondary, h2",
     "k_primary": "K1", "k_secondary": "K2", "gamma": "Systemic velocity", "gamma_offset": "gamma2 - gamma1",
     "mass_ratio": "Mass ratio q = M2/M1", "mass_function": "Mass function", "rms_primary": "rms primary",
     "rms_secondary": "rms secondary", "jitter_primary": "Jitter primary", "jitter_secondary": "Jitter secondary",
@@ -35,8 +45,17 @@ _TITLES = {
 }
 
 
-def format_value(value: float | None, uncertainty: float | None = None, *, digits: int = 6) -> str:
-    """``value ± uncertainty``, rounded to the precision of the uncertainty.
+def is_asymmetric(value: float | None, interval: tuple[float, float] | None) -> bool:
+    """Whether the sides of ``interval`` around ``value`` differ by more than :data:`ASYMMETRY` of the larger."""
+    if interval is None or value is None or not all(x is not None and math.isfinite(x) for x in (value, *interval)):
+        return False
+    below, above = value - interval[0], interval[1] - value
+    return abs(above - below) > ASYMMETRY * max(abs(above), abs(below))
+
+
+def format_value(value: float | None, uncertainty: float | None = None, *, digits: int = 6,
+                 interval: tuple[float, float] | None = None) -> str:
+    """``value ± uncertainty`` (or ``value +upper/-lower``), rounded to the precision of the uncertainty.
 
     The uncertainty is given to two significant figures and the value to the same
     decimal place (common practice).  The one number formatter of every summary table.
@@ -51,6 +70,11 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
         Julian date).
     digits : int
         Significant figures of a value without uncertainty.
+    interval : (float, float), optional
+        Central 68% interval (lower, upper).  When its sides differ by more than
+        :data:`ASYMMETRY` of the larger (and ``value`` lies inside it)
+        the value prints as ``value +upper/-lower``, both sides to two significant
+        figures of the smaller; otherwise as ``value ± uncertainty``.
 
     Examples
     --------
@@ -60,54 +84,95 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
     '2459001.23457'
     >>> format_value(3.14159265358979, None, digits=11)
     '3.1415926536'
+    >>> format_value(0.312, 0.02, interval=(0.301, 0.345))
+    '0.312 +0.033/-0.011'
     """
     if value is None or not math.isfinite(value):
         return "—"
+    if interval is not None and is_asymmetric(value, interval):
+        below, above = value - interval[0], interval[1] - value
+        if below > 0 and above > 0:
+            decimals = _decimals(min(below, above))
+            return f"{value:.{decimals}f} +{above:.{decimals}f}/-{below:.{decimals}f}"
     if uncertainty is None or not math.isfinite(uncertainty) or uncertainty <= 0:
         return f"{value:.{digits}g}" if abs(value) < 1e5 else f"{value:.5f}"
-    decimals = max(0, 1 - int(math.floor(math.log10(uncertainty))))
-    decimals = min(decimals, 12)
+    decimals = _decimals(uncertainty)
     return f"{value:.{decimals}f} ± {uncertainty:.{decimals}f}"
 
 
+def _decimals(uncertainty: float) -> int:
+    """Decimal places that show ``uncertainty`` to two significant figures (at most 12)."""
+    return min(max(0, 1 - int(math.floor(math.log10(uncertainty)))), 12)
+
+
+#: significant figures of a value held fixed: enough to show the value given
+_FIXED_DIGITS = 10
+
+
 def format_summary(result: Mapping[str, Any]) -> str:
-    """Format a ``result.json`` dict as a readable table."""
-    lines = [f"eclipsekit {result.get('eclipsekit_version', '')} — status: {result.get('status', '?')}"]
-    if result.get("message"):
-        lines.append(f"  {result['message']}")
+    """Format a ``result.json`` dict as a readable table.
+
+    The first line carries the status word, and why when it is not "ok"; values held
+    fixed are marked "(fixed)"; then come the priors, the fit's notes and its warnings.
+    """
+    status, message = result.get("status", "?"), result.get("message")
+    first = f"eclipsekit {result.get('eclipsekit_version', '')} — status: {status}"
+    lines = [f"{first}: {message}" if status != "ok" and message else first]
+    if status == "ok" and message:
+        lines.append(f"  {message}")
     inp = (result.get("input") or {}).get("light_curve")
     if inp:
         rej = ", ".join(f"{n} {why}" for why, n in inp.get("n_rejected", {}).items() if n) or "none"
         lines.append(f"  light curve {inp.get('file')}: {inp.get('n_points_used')} points used "
                      f"(rejected: {rej}); time system {inp.get('time_system')}")
     for section, title in _TITLES.items():
-        block = result.get(section)
-        if not block:
-            continue
-        rows = [(name, q) for name, q in block.items() if isinstance(q, dict) and "value" in q]
-        if not rows:
-            continue
-        lines.append("")
-        lines.append(title)
-        for name, q in rows:
-            unit = q.get("unit") or ""
-            unit = {"solRad": "R_sun", "solMass": "M_sun", "solLum": "L_sun", "dex(cm / s2)": ""}.get(unit, unit)
-            label = _LABELS.get(name, name)
-            lines.append(f"  {label:<30s} {format_value(q.get('value'), q.get('uncertainty')):>28s} {unit}".rstrip())
-        budget = block.get("uncertainty_budget") if isinstance(block, dict) else None
-        if budget:
-            lines.append("  Where the uncertainty comes from:")
-            for name in _BUDGET_SHOWN:
-                if budget.get(name):
-                    lines.append(f"    {_LABELS.get(name, name) + ':':<8s} {budget[name]}")
-    fit = result.get("fit") or {}
-    if "reduced_chi_square" in fit:
-        lines.append("")
-        lines.append(f"Fit: {fit.get('method')}, uncertainties from {fit.get('uncertainties')}; "
-                     f"reduced chi-square {fit.get('reduced_chi_square') or float('nan'):.3f}, "
-                     f"{fit.get('n_free_parameters')} free parameters")
-    if fit.get("warnings"):
-        lines.append("")
-        lines.append("Warnings")
-        lines.extend(f"  - {w}" for w in fit["warnings"])
+        lines += _section_lines(result.get(section), title)
+    lines += _fit_lines(result.get("fit") or {})
     return "\n".join(lines)
+
+
+def _section_lines(block: Mapping[str, Any] | None, title: str) -> list[str]:
+    """One block of the table: a title, a row per quantity, the uncertainty budget."""
+    rows = [(name, q) for name, q in (block or {}).items() if isinstance(q, dict) and "value" in q]
+    if not rows:
+        return []
+    lines = ["", title]
+    for name, q in rows:
+        unit = q.get("unit") or ""
+        unit = {"solRad": "R_sun", "solMass": "M_sun", "solLum": "L_sun", "dex(cm / s2)": ""}.get(unit, unit)
+        if q.get("fixed"):
+            text = format_value(q.get("value"), None, digits=_FIXED_DIGITS)
+            unit = f"{unit} (fixed)".lstrip()
+        else:
+            text = format_value(q.get("value"), q.get("uncertainty"), interval=q.get("interval_68"))
+        lines.append(f"  {_LABELS.get(name, name):<30s} {text:>28s} {unit}".rstrip())
+    budget = block.get("uncertainty_budget")
+    if budget:
+        lines.append("  Where the uncertainty comes from:")
+        for name in _BUDGET_SHOWN:
+            if budget.get(name):
+                lines.append(f"    {_LABELS.get(name, name) + ':':<8s} {budget[name]}")
+    return lines
+
+
+def _fit_lines(fit: Mapping[str, Any]) -> list[str]:
+    """The fit's method line, why an MCMC replaced the covariance, priors, notes and warnings."""
+    lines: list[str] = []
+    if "reduced_chi_square" in fit:
+        lines += ["", f"Fit: {fit.get('method')}, uncertainties from {fit.get('uncertainties')}; "
+                      f"reduced chi-square {fit.get('reduced_chi_square') or float('nan'):.3f}, "
+                      f"{fit.get('n_free_parameters')} free parameters"]
+        if fit.get("uncertainties") == "mcmc" and fit.get("errors_reasons"):
+            lines.append(f"  MCMC instead of the covariance matrix: {'; '.join(fit['errors_reasons'])}")
+    if fit.get("priors"):
+        lines += ["", "Priors"]
+        for name, p in fit["priors"].items():
+            label = f"{_LABELS.get(name, name)} ({name})" if name in _LABELS else name
+            lines.append(f"  {label:<44s} {format_value(p.get('value'), p.get('sigma')):>20s}")
+    if fit.get("notes"):
+        lines.append("")
+        lines.extend(f"note: {n}" for n in fit["notes"])
+    if fit.get("warnings"):
+        lines += ["", "Warnings"]
+        lines.extend(f"  - {w}" for w in fit["warnings"])
+    return lines

@@ -185,3 +185,164 @@ def test_crafted_inputs_exit_codes(tmp_path, capsys, name, edit, code, words):
     else:
         line = _one_line_error(capsys)
         assert words in line and line.startswith("eclipsekit: error: ")
+
+
+# -- eclipse-fit options: --fix, --free, --prior, --errors, --mcmc-seconds, statuses -------------------
+from astropy.table import Table  # noqa: E402
+
+from eclipsekit.cli import _ERROR_CHOICES, _prior, _recover_file, build_parser  # noqa: E402
+from eclipsekit.fit.parameters import ALIASES  # noqa: E402
+from eclipsekit.fit.settings import ERROR_METHODS  # noqa: E402
+
+from _systems import SYSTEMS, light_curve_arrays  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def total_csv(tmp_path_factory):
+    # two orbits of the "total" system from the independent brute-force reference (tests/_systems.py)
+    t, f, e = light_curve_arrays("total", 11, n_orbits=2)
+    return _write_csv(tmp_path_factory.mktemp("lc") / "total.csv", "time,flux,flux_err", np.column_stack([t, f, e]))
+
+
+@pytest.fixture(scope="module")
+def held_run(total_csv, tmp_path_factory):
+    """`fit` with a held inclination, a held period (bare name), a light-ratio prior; FILE written last."""
+    out = tmp_path_factory.mktemp("held") / "o"
+    s = SYSTEMS["total"]
+    argv = ["fit", "--period", repr(s["period"]), "--t0", repr(s["t0"]), "--out", str(out), "--quiet",
+            "--seed", "1", "--fix", "inclination=89.5", "period", "--prior", "light_ratio=0.19±0.01", str(total_csv)]
+    return out, argv
+
+
+def _run(argv, capsys):
+    code = main(argv)
+    return code, capsys.readouterr().out
+
+
+def test_fix_and_prior_reach_result_files(held_run, capsys):
+    out, argv = held_run
+    code, printed = _run(argv, capsys)   # FILE after the list options: not swallowed
+    assert code == 0
+    result = json.loads((out / "result.json").read_text())
+    # --fix NAME=VALUE holds exactly the value given on the command line
+    assert result["geometry"]["inclination"] == {"value": 89.5, "uncertainty": None, "unit": "deg", "fixed": True}
+    # bare --fix NAME holds the start value: here the --period given
+    assert result["ephemeris"]["period"]["value"] == SYSTEMS["total"]["period"]
+    assert result["ephemeris"]["period"]["fixed"] is True
+    assert {"inclination", "period"} <= set(result["fit"]["fixed_parameters"])
+    assert "fixed" not in result["geometry"]["radius_sum"]
+    # the prior given on the command line, listed under fit
+    assert result["fit"]["priors"]["light_ratio"] == {"value": 0.19, "sigma": 0.01}
+    assert result["fit"]["uncertainties"] in ("covariance", "mcmc")   # "auto" resolved
+    # the summary: status word on the first line, held values marked with the value held, the priors
+    summary = (out / "summary.txt").read_text()
+    first = summary.splitlines()[0]
+    assert f"status: {result['status']}" in first and printed.splitlines()[0] == first
+    rows = {line.split("  ")[1].strip(): line for line in summary.splitlines() if line.startswith("  ") and "  " in line[2:]}
+    assert "89.5 deg (fixed)" in rows["Inclination"]
+    assert "3 d (fixed)" in rows["Period"]   # 2160 cadences of 2 min = 3 d exactly (tests/_systems.py)
+    assert "(fixed)" not in rows["r1 + r2"]
+    assert "Priors" in summary and "0.190 ± 0.010" in summary
+    table = Table.read(out / "parameters.ecsv", format="ascii.ecsv")
+    fixed = dict(zip(table["name"], table["fixed"]))
+    assert fixed["inclination"] and fixed["period"] and not fixed["radius_sum"]
+
+
+@pytest.mark.parametrize("argv, file, free, fix, prior", [
+    (["--free", "ld1_1", "ld2_1", "lc.csv"], "lc.csv", ["ld1_1", "ld2_1"], [], []),
+    (["--free", "ld1_1", "ld2_1", "--out", "x", "lc.csv"], "lc.csv", ["ld1_1", "ld2_1"], [], []),
+    (["--free", "third_light", "--free", "eccentricity", "lc.csv"], "lc.csv", ["third_light", "eccentricity"], [], []),
+    (["--fix", "inclination=89.5", "t0", "data/lc"], "data/lc", [], ["inclination=89.5", "t0"], []),
+    (["--prior", "light_ratio=0.2±0.01", "lc.csv", "--fix", "ecosw"], "lc.csv", [], ["ecosw"],
+     ["light_ratio=0.2±0.01"]),
+    (["lc.csv", "--free", "ld1_1", "ld2_1"], "lc.csv", ["ld1_1", "ld2_1"], [], []),
+    (["--ld1", "0.4", "0.2", "lc.csv"], "lc.csv", [], [], []),
+])
+def test_list_options_do_not_swallow_file(argv, file, free, fix, prior):
+    args = build_parser().parse_args(["fit", *argv])
+    _recover_file(args)
+    assert (args.file, args.free, args.fix, args.prior) == (file, free, fix, prior)
+
+
+def test_missing_file_is_one_line_error(capsys):
+    assert main(["fit", "--free", "ld1_1", "ld2_1"]) == 2
+    assert "FILE" in _one_line_error(capsys)
+
+
+@pytest.mark.parametrize("text", ["light_ratio=0.19", "light_ratio=0.19±0", "light_ratio=0.19+--0.01",
+                                  "light_ratio=", "light_ratio=0.19±x"])
+def test_prior_without_positive_sigma_refused(total_csv, tmp_path, capsys, text):
+    assert main(["fit", str(total_csv), "--prior", text, "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    msg = _one_line_error(capsys)
+    assert "--prior" in msg and "SIGMA" in msg
+    assert not (tmp_path / "o").exists()   # refused before any work
+
+
+@pytest.mark.parametrize("text, expected", [("light_ratio=0.19±0.01", (0.19, 0.01)),
+                                            ("light_ratio=0.19+-0.01", (0.19, 0.01)),
+                                            ("light_ratio = 0.19 +/- 0.01", (0.19, 0.01)),
+                                            ("inclination=89.1±0.2", (89.1, 0.2))])
+def test_prior_forms(text, expected):
+    assert _prior(text, ["inclination"]) == (text.split("=")[0].strip(), expected)
+
+
+@pytest.mark.parametrize("option, value, words", [
+    ("--free", "k", ["--free", "unknown parameter 'k'"]),        # single-letter aliases are gone
+    ("--fix", "l3", ["--fix", "unknown parameter 'l3'"]),
+    ("--fix", "J=0.6", ["--fix", "unknown parameter 'J'"]),
+    ("--fix", "inclination=high", ["--fix", "inclination=high", "number"]),
+    ("--prior", "mass=1±0.1", ["--prior", "unknown parameter 'mass'"]),
+])
+def test_bad_fit_option_is_one_line_error(total_csv, tmp_path, capsys, option, value, words):
+    assert main(["fit", str(total_csv), option, value, "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    msg = _one_line_error(capsys)
+    assert all(w in msg for w in words), msg
+
+
+def test_package_messages_name_options(total_csv, tmp_path, capsys):
+    # refused by the fit package's checks (in Python terms), before any work: the message names the option
+    assert main(["fit", str(total_csv), "--mcmc-walkers", "0", "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    msg = _one_line_error(capsys)
+    assert "--mcmc-walkers" in msg and "`" not in msg
+    assert not list((tmp_path / "o").glob("*"))   # no result file written
+
+
+def test_fixed_value_outside_bounds(total_csv, tmp_path, capsys):
+    # an inclination above 90 deg is the same orbit seen from the other side (common practice)
+    assert main(["fit", str(total_csv), "--fix", "inclination=95", "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    msg = _one_line_error(capsys)
+    assert "--fix inclination=95" in msg and "90" in msg
+
+
+def test_aliases_are_result_table_groups():
+    assert not {"e", "J", "k", "l3", "ld"} & set(ALIASES)
+    assert {"eccentricity", "limb_darkening", "ld1", "ld2"} <= set(ALIASES)
+
+
+def test_error_choices_match_the_fit():
+    assert _ERROR_CHOICES == ERROR_METHODS
+    assert build_parser().parse_args(["fit", "x.csv"]).errors == "auto"
+
+
+def test_errors_mcmc_with_time_budget(total_csv, tmp_path, capsys):
+    out = tmp_path / "o"
+    s = SYSTEMS["total"]
+    assert main(["fit", str(total_csv), "--period", repr(s["period"]), "--t0", repr(s["t0"]), "--errors", "mcmc",
+                 "--mcmc-seconds", "3", "--mcmc-steps", "300", "--seed", "2", "--out", str(out), "--quiet"]) == 0
+    result = json.loads((out / "result.json").read_text())
+    assert result["fit"]["uncertainties"] == "mcmc"
+    assert "uncertainties from mcmc" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("status", ["poor_fit", "caution"])
+def test_caveat_statuses_exit_0_with_reason_first(total_csv, tmp_path, capsys, monkeypatch, status):
+    import eclipsekit.pipeline as pipeline
+    from eclipsekit.data import read_light_curve
+
+    reason = "the stars are too large for spherical shapes"
+    monkeypatch.setattr(pipeline, "analyse", lambda lc, *a, **k: pipeline.Analysis(
+        lc=read_light_curve(total_csv), status=status, message=reason))
+    assert main(["fit", str(total_csv), "--out", str(tmp_path / "o"), "--quiet"]) == 0
+    first = capsys.readouterr().out.splitlines()[0]
+    assert first.endswith(f"status: {status}: {reason}")
+    assert json.loads((tmp_path / "o" / "result.json").read_text())["status"] == status

@@ -68,8 +68,12 @@ def test_result_schema(run_dir):
     for section in SECTIONS:
         for name, q in result[section].items():
             if isinstance(q, dict) and "value" in q:
-                assert set(q) == {"value", "uncertainty", "unit"}, (section, name)
+                assert {"value", "uncertainty", "unit"} <= set(q) <= {"value", "uncertainty", "unit", "fixed",
+                                                                      "interval_68"}, (section, name)
                 assert isinstance(q["value"], float)
+                assert q.get("fixed", True) is True and (not q.get("fixed") or q["uncertainty"] is None)
+                if "interval_68" in q:
+                    assert q["interval_68"][0] <= q["interval_68"][1]
     assert result["input"]["light_curve"]["time_system"] == "BJD_TDB"
     assert "luminosity_primary" in result["absolute"]
     assert result["eclipsekit_version"]
@@ -424,3 +428,71 @@ def test_cli_run_recovers_independent_reference(reference_system, tmp_path):
     assert main(["run", str(reference_system["lc"]), "--rv", str(reference_system["rv"]), "--out", str(out),
                  "--quiet", *REF_OPTIONS]) == 0
     _check_reference_result(json.loads((out / "result.json").read_text()), _reference_bounds(reference_system))
+
+
+# -- fixed values, priors and the fit's status ---------------------------------------------------------
+from _systems import SYSTEMS, light_curve_arrays  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def total_lc():
+    # two orbits of the "total" system from the independent brute-force reference (tests/_systems.py)
+    from eclipsekit.data import LightCurve
+
+    return LightCurve(*light_curve_arrays("total", 13, n_orbits=2))
+
+
+def test_analyse_passes_fixed_and_priors(total_lc):
+    from eclipsekit.pipeline import analyse
+
+    s = SYSTEMS["total"]
+    a = analyse(total_lc, period=s["period"], t0=s["t0"], fixed={"inclination": 89.5},
+                priors={"light_ratio": (0.19, 0.01)}, progress=False, seed=1)
+    fit = a.eclipse_fit
+    assert fit.values["inclination"] == 89.5 and "inclination" not in fit.free
+    assert a.status == fit.status
+    content = a.to_dict()
+    assert content["geometry"]["inclination"]["fixed"] is True
+    assert content["fit"]["priors"]["light_ratio"] == {"value": 0.19, "sigma": 0.01}
+    assert content["status"] == a.status
+
+
+@pytest.mark.parametrize("options, words", [
+    ({"priors": {"mass": (1.0, 0.1)}}, ["priors", "mass"]),
+    ({"priors": {"light_ratio": (0.19, 0.0)}}, ["priors", "sigma"]),
+    ({"fixed": {"J": 0.6}}, ["'J'"]),
+    ({"free": ("l3",)}, ["free", "'l3'"]),
+    ({"errors": "bootstrap"}, ["errors"]),
+])
+def test_analyse_refuses_bad_fit_options_before_the_search(total_lc, monkeypatch, options, words):
+    import eclipsekit.period as period
+    from eclipsekit.errors import InputError
+    from eclipsekit.pipeline import analyse
+
+    def no_search(*args, **kwargs):
+        raise AssertionError("the period search ran before the options were checked")
+
+    monkeypatch.setattr(period, "find_period", no_search)
+    with pytest.raises(InputError) as info:
+        analyse(total_lc, progress=False, **options)
+    assert all(w in str(info.value) for w in words), str(info.value)
+
+
+@pytest.mark.parametrize("status, reasons, message", [
+    ("ok", [], "no velocities given"),
+    ("caution", ["stars too large for spherical shapes"], "stars too large for spherical shapes; no velocities"),
+    ("poor_fit", ["eclipse residuals 3 times the out-of-eclipse scatter", "not converged"],
+     "eclipse residuals 3 times the out-of-eclipse scatter; not converged; no velocities"),
+])
+def test_analysis_status_follows_the_fit(total_lc, monkeypatch, status, reasons, message):
+    import types
+
+    import eclipsekit.fit as fit_package
+    from eclipsekit.pipeline import analyse
+
+    stub = types.SimpleNamespace(status=status, status_reasons=reasons, warnings=[])
+    monkeypatch.setattr(fit_package, "fit_eclipses", lambda *args, **kwargs: stub)
+    s = SYSTEMS["total"]
+    a = analyse(total_lc, period=s["period"], t0=s["t0"], progress=False)
+    assert a.status == status
+    assert a.message.startswith(message)

@@ -123,3 +123,89 @@ def test_load_result_samples(tmp_path):
 def test_format_value(value, err, text):
     # two significant figures on the uncertainty, value rounded to match (common practice)
     assert format_value(value, err) == text
+
+
+# -- fixed values, asymmetric intervals, priors, notes, statuses ------------------------------------
+from eclipsekit.summary import ASYMMETRY, format_summary, is_asymmetric  # noqa: E402
+
+
+def test_quantity_marks_fixed_and_interval():
+    assert quantity(89.5, None, "deg", fixed=True) == {"value": 89.5, "uncertainty": None, "unit": "deg",
+                                                      "fixed": True}
+    assert quantity(0.3, 0.02, "", interval=(0.29, 0.34))["interval_68"] == [0.29, 0.34]
+    assert "fixed" not in quantity(1.0) and "interval_68" not in quantity(1.0)
+
+
+@pytest.mark.parametrize("interval, asymmetric", [
+    ((0.9, 1.1), False),            # symmetric
+    ((0.9, 1.1 + 0.02), False),     # sides 0.10 and 0.12: differ by 17% of the larger
+    ((0.9, 1.1 + 0.03), True),      # 0.10 and 0.13: 23%
+    ((0.95, 1.01), True),           # 0.05 and 0.01
+    (None, False),
+])
+def test_is_asymmetric(interval, asymmetric):
+    assert ASYMMETRY == 0.2  # the threshold these cases straddle
+    assert is_asymmetric(1.0, interval) is asymmetric
+
+
+@pytest.mark.parametrize("value, err, interval, text", [
+    # sides 0.033 and 0.011: each to two significant figures of the smaller (common practice)
+    (0.312, 0.02, (0.301, 0.345), "0.312 +0.033/-0.011"),
+    # sides within 20% of each other: the symmetric form
+    (85.2, 0.4, (84.8, 85.62), "85.20 ± 0.40"),
+    # the value outside its interval (a best fit reported with permutation intervals): no signed sides
+    (1.0, 0.1, (1.05, 1.2), "1.00 ± 0.10"),
+])
+def test_format_value_interval(value, err, interval, text):
+    assert format_value(value, err, interval=interval) == text
+
+
+def _result(status="ok", message="", **fit):
+    return {
+        "eclipsekit_version": "0", "status": status, "message": message,
+        "geometry": {"inclination": quantity(89.5, None, "deg", fixed=True),
+                     "radius_ratio": quantity(0.55, 0.02, "", interval=(0.54, 0.60)),
+                     "radius_sum": quantity(0.18, 0.0005, "")},
+        "fit": {"method": "least squares (lmfit)", "uncertainties": "covariance", "reduced_chi_square": 1.0,
+                "n_free_parameters": 9, "warnings": [], **fit},
+    }
+
+
+def test_summary_status_first_line():
+    assert format_summary(_result()).splitlines()[0].endswith("status: ok")
+    text = format_summary(_result("caution", "stars too large for spherical shapes"))
+    assert text.splitlines()[0].endswith("status: caution: stars too large for spherical shapes")
+    # an "ok" message (e.g. where the analysis stopped) goes on the next line
+    lines = format_summary(_result("ok", "no velocities given")).splitlines()
+    assert lines[0].endswith("status: ok") and lines[1].strip() == "no velocities given"
+
+
+def test_summary_rows_fixed_and_asymmetric():
+    rows = {line[2:32].strip(): line for line in format_summary(_result()).splitlines() if line.startswith("  ")}
+    assert rows["Inclination"].split()[-3:] == ["89.5", "deg", "(fixed)"]
+    assert "0.550 +0.050/-0.010" in rows["k = r2/r1"]
+    assert "0.18000 ± 0.00050" in rows["r1 + r2"] and "fixed" not in rows["r1 + r2"]
+
+
+def test_summary_priors_notes_and_mcmc_reason():
+    text = format_summary(_result(
+        uncertainties="mcmc", errors_reasons=["radius_ratio's chi-square profile is asymmetric"],
+        priors={"light_ratio": {"value": 0.19, "sigma": 0.01}, "ld1_sum": {"value": 0.65, "sigma": 0.2}},
+        notes=["the data constrain ld1_sum; ld1_diff follows its prior"]))
+    lines = text.splitlines()
+    assert "MCMC instead of the covariance matrix: radius_ratio's chi-square profile is asymmetric" in text
+    block = lines[lines.index("Priors") + 1:lines.index("Priors") + 3]
+    assert "light_ratio" in block[0] and block[0].endswith("0.190 ± 0.010")
+    assert "ld1_sum" in block[1] and block[1].endswith("0.65 ± 0.20")
+    assert "note: the data constrain ld1_sum; ld1_diff follows its prior" in lines
+    # with the covariance trusted there is no such line
+    assert "MCMC instead" not in format_summary(_result(errors_reasons=[]))
+
+
+def test_parameters_table_fixed_column(tmp_path):
+    table = parameters_table(_result())
+    path = tmp_path / "parameters.ecsv"
+    table.write(path, format="ascii.ecsv")
+    back = Table.read(path, format="ascii.ecsv")
+    assert dict(zip(back["name"], back["fixed"].tolist())) == {"inclination": True, "radius_ratio": False,
+                                                               "radius_sum": False}

@@ -58,17 +58,12 @@ DERIVED: dict[str, str] = {
     "depth_secondary": "",
 }
 
-#: shortcuts accepted by ``free=`` and ``fix=``
+#: shortcuts accepted by ``free=`` and ``fix=``: groups of result-table names (never single letters)
 ALIASES: dict[str, tuple[str, ...]] = {
     "eccentricity": ("ecosw", "esinw"),
-    "e": ("ecosw", "esinw"),
     "limb_darkening": ("ld1_1", "ld1_2", "ld2_1", "ld2_2"),
-    "ld": ("ld1_1", "ld1_2", "ld2_1", "ld2_2"),
     "ld1": ("ld1_1", "ld1_2"),
     "ld2": ("ld2_1", "ld2_2"),
-    "J": ("surface_brightness_ratio",),
-    "k": ("radius_ratio",),
-    "l3": ("third_light",),
 }
 
 DEFAULT_FREE = ("period", "t0", "radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio")
