@@ -223,7 +223,10 @@ def test_fitting_near_the_eclipses_is_equivalent():
     rng = np.random.default_rng(8)
     lc = _lc(t, f * (1 + 2e-3 * (t - t.mean()) / np.ptp(t)), 5e-4, rng)
     start = _measured_start(t, f, sys_["period"], sys_["t0"])
-    opts = dict(ld_primary=sys_["ld_primary"], ld_secondary=sys_["ld_secondary"], progress=False)
+    # limb darkening held at the truth: this test is about the windows, and the flat directions of the
+    # fitted limb-darkening combinations would only add optimiser tolerance to the comparison
+    opts = dict(ld_primary=sys_["ld_primary"], ld_secondary=sys_["ld_secondary"], progress=False,
+                fix=["limb_darkening"])
     win = fit_eclipses(lc, start, window=True, **opts)
     full = fit_eclipses(lc, start, window=False, **opts)
     assert win.diagnostics["windowed"] and win.diagnostics["n_fitted"] < 0.5 * len(lc)
