@@ -14,13 +14,13 @@ FIT_KEYS = ("method", "reduced_chi_square", "rms", "bic", "n_free_parameters", "
 
 
 def golden_quantities() -> dict[str, Any]:
-    """The demo run (sample light curve and velocities, demo options, seed 1) as plain JSON."""
+    """The demo run (sample light curve and velocities, the demo's temperatures, no fit options, seed 1)."""
     import eclipsekit as ek
     from eclipsekit.data import sample_paths
 
     lc, rv = sample_paths()
-    analysis = ek.analyse(str(lc), str(rv), free=("ld1_1", "ld2_1"), teff_primary=(7550.0, 150.0),
-                          teff_secondary=(6600.0, 150.0), seed=1, progress=False)
+    analysis = ek.analyse(str(lc), str(rv), teff_primary=(7550.0, 150.0), teff_secondary=(6600.0, 150.0), seed=1,
+                          progress=False)
     content = analysis.to_dict()
     out: dict[str, Any] = {"status": content["status"]}
     for section in SECTIONS:
