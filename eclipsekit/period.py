@@ -45,6 +45,7 @@ from scipy.optimize import least_squares
 from ._grid import Q_MAX, bin_in_time, frequency_grid, grid_size, min_duty_cycle, period_bands, trial_durations
 from ._pdm import pdm_theta
 from ._validate import as_float
+from ._threads import one_blas_thread
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
 from .orbit import orbital_phase
 
@@ -837,6 +838,7 @@ def _explain_choice(evals: list[dict], best: int, tol: float, alternative: float
 # ----------------------------------------------------------------------------------------
 # public function
 # ----------------------------------------------------------------------------------------
+@one_blas_thread
 def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0, method: str = "both",
                 n_jobs: int | None = None, progress: bool = True) -> PeriodSearch:
     """Find the orbital period of a detached eclipsing binary.

@@ -21,6 +21,7 @@ from astropy.table import Table
 from . import _notes, results
 from ._validate import as_float
 from .data import LightCurve, VelocityCurve, read_light_curve, read_velocities
+from ._threads import one_blas_thread
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
 from .orbit import orbital_phase
 from .summary import format_summary
@@ -211,6 +212,7 @@ class _Timer:
         self.timings[self.name] = _time.perf_counter() - self.start
 
 
+@one_blas_thread
 def analyse(
     lc: LightCurve | str | os.PathLike,
     velocities: VelocityCurve | str | os.PathLike | None = None,

@@ -5,20 +5,15 @@ outside reference: it guards restructurings that must not change any number.  Wh
 of the numbers is intended, regenerate the copy with ``python scripts/save_golden_result.py``
 and say why in the commit.
 
-Numbers are compared to 1e-5 relative, words exactly.  Run alone, the analysis repeats to
-the last digit; once, under heavy machine load, the absolute dimensions came out 1.5e-6
-(relative) away, most likely from the period search's two threads calling BLAS at the same
-time (the reduction order of a threaded BLAS call depends on what else is running).  A
-restructuring mistake moves numbers by far more than that.
+Every number is compared to the last digit: the analysis runs BLAS on one thread
+(eclipsekit/_threads.py) precisely so that it repeats exactly, whatever else the machine runs.
 """
 
 import json
-import math
 import warnings
 
 from _golden import GOLDEN, golden_quantities
 
-RTOL = 1e-5
 
 
 def _same(now, saved, where=""):
@@ -30,8 +25,6 @@ def _same(now, saved, where=""):
         assert isinstance(now, list) and len(now) == len(saved), f"{where}: lengths differ"
         for i, (a, b) in enumerate(zip(now, saved)):
             _same(a, b, f"{where}[{i}]")
-    elif isinstance(saved, float) and isinstance(now, (int, float)):
-        assert math.isclose(now, saved, rel_tol=RTOL, abs_tol=0.0), f"{where}: {now} != {saved}"
     else:
         assert now == saved, f"{where}: {now!r} != {saved!r}"
 

@@ -13,6 +13,7 @@ import warnings
 from typing import Any, Iterable, Mapping
 
 from ..data import LightCurve
+from .._threads import one_blas_thread
 from ..errors import EclipsekitWarning, InputError
 from .joint import joint_fit
 from .lightcurve import fit_light_curve
@@ -22,6 +23,7 @@ from .settings import make_settings
 __all__ = ["fit_eclipses"]
 
 
+@one_blas_thread
 def fit_eclipses(
     lc: LightCurve,
     start: Any = None,
