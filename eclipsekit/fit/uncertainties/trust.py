@@ -21,8 +21,9 @@ KEY = ("radius_sum", "radius_ratio", "inclination", "surface_brightness_ratio", 
 MAX_CORRELATION = 0.999   # |rho| above which two parameters are nearly degenerate (a linear correlation alone
 #                           is Gaussian; the profile tests below catch the curved valleys)
 MAX_RELATIVE_ERROR = 0.10  # relative error above which a linear approximation rarely holds
-PROFILE_RANGE = (0.6, 1.6)  # accepted delta-chi2 at +-1 sigma, in units of the expected 1
-MAX_ASYMMETRY = 0.35       # accepted |delta-chi2(+1 sigma) - delta-chi2(-1 sigma)|
+#: accepted chi-square rise at +-1 sigma, in units of the expected 1: each side's true 1-sigma point lies
+#: within a factor 1.5 of the covariance's (the rise scales as the inverse square of that factor)
+PROFILE_RANGE = (1 / 1.5 ** 2, 1.5 ** 2)
 
 
 def covariance_doubts(names: Sequence[str], x: np.ndarray, cov: np.ndarray | None, lo: np.ndarray, hi: np.ndarray,
@@ -95,6 +96,6 @@ def _profile_doubts(name, i, x, cov, sd, lo, hi, chi2, chi2_scale) -> list[str]:
     up, down = rises
     if not all(math.isfinite(r) for r in rises):
         return [f"the model fails within 1 sigma of the best {name}"]
-    if min(up, down) < PROFILE_RANGE[0] or max(up, down) > PROFILE_RANGE[1] or abs(up - down) > MAX_ASYMMETRY:
+    if min(up, down) < PROFILE_RANGE[0] or max(up, down) > PROFILE_RANGE[1]:
         return [f"chi-square is not parabolic in {name} (rises {up:.2f} and {down:.2f} at +-1 sigma, 1 expected)"]
     return []
