@@ -74,7 +74,9 @@ def _fits():
         lc, rv, start = _data()
         opts = dict(free=["eccentricity"], progress=False, **LD)
         t = _time.perf_counter()
-        alone = fit_eclipses(lc, start, seed=3, **opts)
+        # covariance errors, as the joint fit's: the comparisons below are like with like (the default
+        # errors="auto" may run an MCMC for the light curve alone)
+        alone = fit_eclipses(lc, start, seed=3, errors="covariance", **opts)
         t_alone = _time.perf_counter() - t
         t = _time.perf_counter()
         with warnings.catch_warnings(record=True) as caught:

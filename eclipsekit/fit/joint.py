@@ -220,8 +220,9 @@ def joint_fit(lc: LightCurve, velocities: Any, start: Any = None, *, fix: Iterab
     with warnings.catch_warnings():
         # its warnings describe the light curve and the model's validity: re-issued with the joint fit's
         warnings.simplefilter("ignore", EclipsekitWarning)
+        # the light curve alone only starts the joint fit: its covariance is all it needs (no MCMC)
         settings = make_settings(lc, fix=fix, free=free, n_samples=min(int(n_samples), 200), progress=progress,
-                                 seed=seed, **kwargs)
+                                 seed=seed, errors="covariance", **kwargs)
         lc_sol = fit_light_curve(lc, start, settings)
     lc_fit = lc_sol.fit
     with warnings.catch_warnings():
