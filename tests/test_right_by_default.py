@@ -81,22 +81,3 @@ def test_fixed_limb_darkening_by_name_is_held_and_others_stay_fitted():
     assert fit.values["ld1_1"] == 0.28 and fit.values["ld1_2"] == 0.30
     assert "ld1_1" in fit.fixed and "ld2_sum" in fit.free and "ld2_1" not in fit.fixed
     assert fit.uncertainties["ld2_1"] is not None
-
-
-@pytest.mark.slow
-def test_partial_coverage_with_defaults():
-    # honest 1-sigma intervals contain the truth in 68.3% of realisations; binomial scatter over 50 is 6.6%,
-    # and the criterion is 68 +- 8%
-    name, n = "partial", 50
-    tr = truth(name)
-    inside = {k: 0 for k in GEOMETRY}
-    for seed in range(100, 100 + n):
-        t, f, e = light_curve_arrays(name, seed, n_orbits=2)
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            fit = ek.fit_eclipses(ek.LightCurve(t, f, e), progress=False, seed=seed, check_third_light=False)
-        for k in GEOMETRY:
-            lo, hi = fit.intervals[k]
-            inside[k] += lo <= tr[k] <= hi
-    for k in GEOMETRY:
-        assert 0.60 <= inside[k] / n <= 0.76, f"{k}: {inside[k]} of {n} inside 1 sigma"
