@@ -441,5 +441,5 @@ def test_warns_when_fixed_limb_darkening_is_wrong():
         fit = fit_eclipses(lc, start, ld_primary=(0.1, 0.0), ld_secondary=(0.9, 0.0), fix=["limb_darkening"],
                            progress=False)
     assert any("limb darkening is held fixed" in w for w in fit.warnings)
-    assert fit.status == "caution"  # a warning that the answer is biased
+    assert fit.status in ("caution", "poor_fit")  # biased (and here so wrong the eclipses fit poorly): not ok
     assert fit.diagnostics["limb_darkening_check"]["delta_chi2"] > 13.8
