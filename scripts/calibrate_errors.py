@@ -13,8 +13,10 @@ realisations, with binomial standard error sqrt(p (1 - p) / n) (common practice)
 fit "contains" the truth when |z| < 1, z = (fit - truth) / reported sigma, or, when the
 auto rule chose an MCMC (whose intervals may be asymmetric), when
 ``fit.intervals[name]`` = (lower, upper) holds it.  The 95% column uses the 2.5-97.5
-percentiles of ``fit.samples[name]``.  The mean and standard deviation of z should be
-near 0 and 1.  The output is Markdown, headed by the command line that produced it.
+percentiles of ``fit.samples[name]``.  The p columns are two-sided exact binomial tests
+of each count against 68.27% and 95% (scipy.stats.binomtest).  The mean and standard
+deviation of z should be near 0 and 1.  The output is Markdown, headed by the command
+line that produced it.
 
 Usage: python scripts/calibrate_errors.py [--system partial] [--n 50] [--seed 0] [--n-orbits 5]
        [--output FILE]
@@ -32,6 +34,7 @@ import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy import stats
 from tqdm import tqdm
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "tests"))
@@ -111,15 +114,16 @@ def coverage_table(name: str, rows: list[Realisation]) -> list[str]:
     if n == 0:
         return ["No fit succeeded."]
     se68, se95 = np.sqrt(P68 * (1 - P68) / n), np.sqrt(P95 * (1 - P95) / n)
-    lines = [f"| quantity | truth | inside 68% (expect {100 * P68:.1f} +- {100 * se68:.1f}) "
-             f"| inside 95% (expect 95.0 +- {100 * se95:.1f}) | mean z | sd z | max abs z |",
-             "| --- | ---: | ---: | ---: | ---: | ---: | ---: |"]
+    lines = [f"| quantity | truth | inside 68% (expect {100 * P68:.1f} +- {100 * se68:.1f}) | p68 "
+             f"| inside 95% (expect 95.0 +- {100 * se95:.1f}) | p95 | mean z | sd z | max abs z |",
+             "| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |"]
     for key in CASES[name]["keys"]:
         z = np.array([r.z[key] for r in ok])
-        f68 = np.mean([r.inside68[key] for r in ok])
-        f95 = np.mean([r.inside95[key] for r in ok])
-        lines.append(f"| {key} | {tr[key]:.6g} | {100 * f68:.1f} | {100 * f95:.1f} | {np.nanmean(z):+.2f} "
-                     f"| {np.nanstd(z, ddof=1):.2f} | {np.nanmax(np.abs(z)):.2f} |")
+        k68, k95 = sum(r.inside68[key] for r in ok), sum(r.inside95[key] for r in ok)
+        # two-sided exact binomial test of the count against the nominal probability (scipy)
+        p68, p95 = stats.binomtest(k68, n, P68).pvalue, stats.binomtest(k95, n, P95).pvalue
+        lines.append(f"| {key} | {tr[key]:.6g} | {100 * k68 / n:.1f} | {p68:.2f} | {100 * k95 / n:.1f} | {p95:.2f} "
+                     f"| {np.nanmean(z):+.2f} | {np.nanstd(z, ddof=1):.2f} | {np.nanmax(np.abs(z)):.2f} |")
     return lines
 
 
