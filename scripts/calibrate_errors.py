@@ -27,7 +27,9 @@ from __future__ import annotations
 import argparse
 import collections
 import os
+import re
 import shlex
+import signal
 import sys
 import time
 import warnings
@@ -78,6 +80,7 @@ class Realisation:
     inside95: dict[str, bool] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
     error: str = ""
+    n_effective: float = np.nan  # MCMC only: effective independent samples
 
 
 def fit_one(name: str, seed: int, n_orbits: int) -> Realisation:
@@ -93,7 +96,8 @@ def fit_one(name: str, seed: int, n_orbits: int) -> Realisation:
         except EclipsekitError as exc:
             return Realisation(seed, time.perf_counter() - t1, error=f"{type(exc).__name__}: {exc}")
     out = Realisation(seed, time.perf_counter() - t1, method=fit.errors_method, status=fit.status,
-                      warnings=[str(w.message) for w in caught])
+                      warnings=[str(w.message) for w in caught],
+                      n_effective=fit.diagnostics.get("mcmc", {}).get("n_effective", np.nan))
     for key in case["keys"]:
         value, sigma = fit.values[key], fit.uncertainties[key]
         out.z[key] = (value - tr[key]) / sigma if sigma else np.nan
@@ -159,13 +163,14 @@ def oddities(name: str, rows: list[Realisation]) -> list[str]:
     outliers = [f"seed {r.seed} {k} z = {z:+.2f}" for r in rows for k, z in r.z.items() if abs(z) > Z_OUTLIER]
     if outliers:
         lines.append(f"- |z| > {Z_OUTLIER:g}: " + "; ".join(outliers))
-    seen = collections.Counter(w.split(":")[0][:90] for r in rows for w in set(r.warnings))
+    # numbers masked so that one kind of warning is counted once
+    seen = collections.Counter(re.sub(r"[-+]?\d[\d.e+-]*", "#", w)[:100] for r in rows for w in set(r.warnings))
     for msg, count in seen.most_common():
-        lines.append(f"- warning in {count} fits: {msg}...")
+        lines.append(f"- warning in {count} fits: {msg}")
     return lines or ["- none: every fit succeeded with status 'ok', no |z| > 4, no warning"]
 
 
-def report(name: str, rows: list[Realisation], n_orbits: int, command: str, wall: float) -> str:
+def report(name: str, rows: list[Realisation], n_orbits: int, command: str, wall: float, n_asked: int) -> str:
     """The whole Markdown report of one system."""
     s, ok = SYSTEMS[name], [r for r in rows if r.method != "failed"]
     opts = CASES[name]["options"]
@@ -175,13 +180,16 @@ def report(name: str, rows: list[Realisation], n_orbits: int, command: str, wall
     n_points = int(round(s["period"] / (2.0 / 1440))) * n_orbits
     lines = [f"### Coverage: system `{name}`", "",
              f"`{command}`", "",
-             f"{len(rows)} realisations ({len(ok)} fitted), {n_orbits} orbits, {n_points} points, white noise "
+             f"{len(rows)} realisations ({len(ok)} fitted"
+             + (f"; interrupted, {n_asked} asked" if len(rows) < n_asked else "") + f"), {n_orbits} orbits, {n_points} points, white noise "
              f"{NOISE[name]:g} per 2-min point; fit options: {opts or 'none (default path)'}.", ""]
     lines += coverage_table(name, rows)
     mcmc = methods.get("mcmc", 0)
     lines += ["", verdict(name, rows), "",
               f"- auto rule chose MCMC in {mcmc} of {len(ok)} fits"
-              + (f" (seeds {[r.seed for r in rows if r.method == 'mcmc']})" if 0 < mcmc <= 20 else ""),
+              + (f" (seeds {[r.seed for r in rows if r.method == 'mcmc']})" if 0 < mcmc <= 20 else "")
+              + (f"; median effective samples {np.nanmedian([r.n_effective for r in rows if r.method == 'mcmc']):.0f}"
+                 if mcmc else ""),
               f"- mean time per fit {np.mean([r.seconds for r in rows]):.1f} s; by method: {per_method}; "
               f"wall time {wall / 60:.1f} min",
               ]
@@ -205,8 +213,16 @@ def main(argv: list[str] | None = None) -> int:
     t1 = time.perf_counter()
     seeds = range(args.seed, args.seed + args.n)
     bar = tqdm(seeds, file=sys.stderr, disable=not sys.stderr.isatty(), desc=args.system)
-    rows = [fit_one(args.system, s, args.n_orbits) for s in bar]
-    text = report(args.system, rows, args.n_orbits, command.strip(), time.perf_counter() - t1)
+    rows = []
+    # a long run stopped with Ctrl-C or `kill` still reports the realisations it finished
+    signal.signal(signal.SIGTERM, signal.default_int_handler)
+    try:
+        for s in bar:
+            rows.append(fit_one(args.system, s, args.n_orbits))
+    except KeyboardInterrupt:
+        if len(rows) < 2:
+            return 1
+    text = report(args.system, rows, args.n_orbits, command.strip(), time.perf_counter() - t1, args.n)
     print(text)
     if args.output:
         with open(args.output, "w") as fh:
