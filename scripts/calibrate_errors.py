@@ -19,13 +19,15 @@ deviation of z should be near 0 and 1.  The output is Markdown, headed by the co
 line that produced it.
 
 Usage: python scripts/calibrate_errors.py [--system partial] [--n 50] [--seed 0] [--n-orbits 5]
-       [--output FILE]
+       [--output FILE] [--rows FILE]
 """
 
 from __future__ import annotations
 
 import argparse
 import collections
+import dataclasses
+import json
 import os
 import re
 import shlex
@@ -33,7 +35,6 @@ import signal
 import sys
 import time
 import warnings
-from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
@@ -67,7 +68,7 @@ TOL68, MIN95 = 0.08, 0.90
 Z_OUTLIER = 4.0
 
 
-@dataclass
+@dataclasses.dataclass
 class Realisation:
     """What one fit says about the quantities tabulated (or why it failed)."""
 
@@ -75,10 +76,10 @@ class Realisation:
     seconds: float
     method: str = "failed"
     status: str = "failed"
-    z: dict[str, float] = field(default_factory=dict)
-    inside68: dict[str, bool] = field(default_factory=dict)
-    inside95: dict[str, bool] = field(default_factory=dict)
-    warnings: list[str] = field(default_factory=list)
+    z: dict[str, float] = dataclasses.field(default_factory=dict)
+    inside68: dict[str, bool] = dataclasses.field(default_factory=dict)
+    inside95: dict[str, bool] = dataclasses.field(default_factory=dict)
+    warnings: list[str] = dataclasses.field(default_factory=list)
     error: str = ""
     n_effective: float = np.nan  # MCMC only: effective independent samples
 
@@ -148,12 +149,12 @@ def verdict(name: str, rows: list[Realisation]) -> str:
             f"{', '.join(GEOMETRY)}): {'PASS' if not bad else 'FAIL: ' + ', '.join(bad)}**")
 
 
-def oddities(name: str, rows: list[Realisation]) -> list[str]:
+def oddities(rows: list[Realisation]) -> list[str]:
     """Failed fits, statuses other than "ok", |z| outliers and the warnings seen, with their seeds."""
     lines = []
     failed = [r for r in rows if r.method == "failed"]
     if failed:
-        lines.append(f"- failed fits: " + "; ".join(f"seed {r.seed}: {r.error}" for r in failed))
+        lines.append("- failed fits: " + "; ".join(f"seed {r.seed}: {r.error}" for r in failed))
     not_ok = collections.defaultdict(list)
     for r in rows:
         if r.method != "failed" and r.status != "ok":
@@ -193,7 +194,7 @@ def report(name: str, rows: list[Realisation], n_orbits: int, command: str, wall
               f"- mean time per fit {np.mean([r.seconds for r in rows]):.1f} s; by method: {per_method}; "
               f"wall time {wall / 60:.1f} min",
               ]
-    lines += oddities(name, rows)
+    lines += oddities(rows)
     return "\n".join(lines) + "\n"
 
 
@@ -205,6 +206,7 @@ def main(argv: list[str] | None = None) -> int:
                     help="seed of the first realisation; realisation i uses seed + i for the noise and the fit")
     ap.add_argument("--n-orbits", type=int, default=5, help="orbits per light curve (default 5, as the tests)")
     ap.add_argument("--output", help="also write the Markdown report to this file")
+    ap.add_argument("--rows", help="write each realisation's z, coverage and method to this JSON-lines file")
     args = ap.parse_args(argv)
     if args.n < 2 or args.n_orbits < 1:
         ap.error("--n must be at least 2 and --n-orbits at least 1")
@@ -219,6 +221,9 @@ def main(argv: list[str] | None = None) -> int:
     try:
         for s in bar:
             rows.append(fit_one(args.system, s, args.n_orbits))
+            if args.rows:
+                with open(args.rows, "a") as fh:
+                    fh.write(json.dumps(dataclasses.asdict(rows[-1])) + "\n")
     except KeyboardInterrupt:
         if len(rows) < 2:
             return 1
