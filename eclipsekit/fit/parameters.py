@@ -39,8 +39,9 @@ PARAMETERS: dict[str, tuple[str, float | None, float | None, str]] = {
     "surface_brightness_ratio": ("", 1e-4, 50.0, "disc-averaged surface brightness ratio J = S2 / S1"),
     "ecosw": ("", -0.9, 0.9, "e cos(omega)"),
     "esinw": ("", -0.9, 0.9, "e sin(omega)"),
-    # slightly negative allowed: over-subtracted background in crowded photometry
-    "third_light": ("", -0.2, 0.95, "fraction of the out-of-eclipse flux from neither star"),
+    # the model's own domain, [0, 1): a negative value made every MCMC batch holding one fail (found by the
+    # coverage calibration); over-subtracted backgrounds belong in the photometry, not here
+    "third_light": ("", 0.0, 0.95, "fraction of the out-of-eclipse flux from neither star"),
 }
 
 #: limb-darkening law -> (typical coefficients, bounds of each coefficient): one set for the model and the fit
@@ -342,6 +343,8 @@ class ParameterMap:
             tol = 1e-6 * (hi - lo)
             if n == "inclination" and par.value >= hi - tol:
                 continue  # i = 90 deg is a physical limit, not a failure
+            if n == "third_light" and par.value <= lo + tol:
+                continue  # no third light is a physical limit too
             if n in ("third_light", "ecosw", "esinw") or n.startswith("ld"):
                 if abs(par.value - lo) <= tol or abs(par.value - hi) <= tol:
                     out.append(n)
