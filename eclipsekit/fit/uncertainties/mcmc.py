@@ -96,11 +96,10 @@ def _valley_positions(ctx: UncertaintyContext) -> np.ndarray | None:
 
     Least-squares fits at radius ratios held at a range of values around the best fit
     (a profile of chi-square in k) trace the valley along which k, inclination, r1 + r2
-    and third light trade off; walkers start at the points within chi-square 11.6 (the
-    3-sigma level for 1 parameter... with margin for the other parameters' moves: 99.9%
-    of chi-square with 2 degrees of freedom is 13.8, 11.6 covers 3 sigma of one) of the
-    best, so the differential-evolution moves can sample the whole valley rather than
-    the neighbourhood of one end of it.
+    and third light trade off; walkers start at the points whose chi-square rise is below
+    11.6 (a little beyond 10.83, the 99.9% point of chi-square with one degree of freedom;
+    standard tables), so the differential-evolution moves can sample the whole valley rather
+    than the neighbourhood of one end of it.
     """
     pm = ctx.mapping
     i_k = pm.free.index("radius_ratio")
