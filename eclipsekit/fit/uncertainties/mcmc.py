@@ -134,10 +134,12 @@ def _covariance_positions(ctx: UncertaintyContext) -> np.ndarray:
     # calibration systems (scripts/calibrate_errors.py), so the ensemble starts near stationarity and
     # the burn-in only has to absorb the non-Gaussian part.  (A ball of half the widths also spread out
     # within ~25 steps, so it was not what limited the coverage; it only wasted burn-in.)
-    ball = ctx.covariance if ctx.covariance is not None else np.eye(nvar) * 1e-8
+    ball = _bounded_ball(ctx.covariance if ctx.covariance is not None else np.eye(nvar) * 1e-8, lo_int, hi_int)
+    w, v = np.linalg.eigh(ball)
+    root = v * np.sqrt(np.clip(w, 0.0, None))  # a slightly indefinite covariance still gives real draws
     k = 0
     for _ in range(100):
-        draw = pm.fold(ctx.rng.multivariate_normal(ctx.x_best, ball, size=nwalk, method="eigh"))
+        draw = pm.fold(ctx.x_best + ctx.rng.standard_normal((nwalk, nvar)) @ root.T)
         good = np.all((draw > lo_int) & (draw < hi_int), axis=1)
         take = draw[good][: nwalk - k]
         pos[k:k + take.shape[0]] = take
@@ -145,8 +147,26 @@ def _covariance_positions(ctx: UncertaintyContext) -> np.ndarray:
         if k >= nwalk:
             break
     if k < nwalk:
-        pos[k:] = np.clip(ctx.x_best, lo_int + 1e-9 * (hi_int - lo_int), hi_int - 1e-9 * (hi_int - lo_int))
+        # the rest at the best fit, each nudged by its own tiny offset: identical walkers would span no
+        # volume, and emcee refuses an initial ensemble that is not linearly independent
+        width = hi_int - lo_int
+        nudge = ctx.rng.uniform(-1e-6, 1e-6, size=(nwalk - k, nvar)) * width
+        pos[k:] = np.clip(ctx.x_best + nudge, lo_int + 1e-9 * width, hi_int - 1e-9 * width)
     return pos
+
+
+def _bounded_ball(cov: np.ndarray, lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    """The covariance with each standard deviation capped at a tenth of its parameter's allowed range.
+
+    A parameter the data hardly constrain (e.g. the inclination of a fit stuck at 90 deg) can have a
+    covariance width of thousands of degrees; draws that wide all fall outside the bounds.  Scaling its
+    row and column keeps the correlations and gives starts inside the bounds.
+    """
+    cov = np.where(np.isfinite(cov), cov, 0.0)
+    sd = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+    cap = 0.1 * (upper - lower)
+    f = np.where(sd > cap, cap / np.where(sd > 0, sd, 1.0), 1.0)
+    return cov * np.outer(f, f)
 
 
 def _autocorr(sampler: Any, discard: int, nvar: int) -> np.ndarray:

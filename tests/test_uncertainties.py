@@ -1,0 +1,53 @@
+"""Walker starts of the MCMC (eclipsekit.fit.uncertainties.mcmc).
+
+Regression tests: fuzz input 393 of ``scripts/fuzz_inputs.py --seed 1`` (a light curve with
+zero-flux rows) ended with a least-squares covariance whose inclination width was ~4e4 deg.
+Every draw from it fell outside the bounds, all walkers started at the best fit, and emcee
+refused the ensemble ("Initial state has a large condition number"): a crash, not a message.
+"""
+
+from __future__ import annotations
+
+from types import SimpleNamespace
+
+import numpy as np
+from emcee.ensemble import walkers_independent
+
+from eclipsekit.fit.uncertainties.mcmc import _bounded_ball, _covariance_positions
+
+
+class _Map:
+    """The part of a ParameterMap the walker starts use: bounds and (identity) folding."""
+
+    free = ["a", "b", "c"]
+    lower = np.array([0.0, 30.0, -1.0])
+    upper = np.array([1.0, 90.0, 1.0])
+
+    @staticmethod
+    def fold(x):
+        return x
+
+
+def _context(cov, x_best):
+    settings = SimpleNamespace(mcmc_walkers=8)
+    return SimpleNamespace(mapping=_Map(), covariance=np.asarray(cov, float), x_best=np.asarray(x_best, float),
+                           rng=np.random.default_rng(3), settings=settings)
+
+
+def test_unconstrained_parameter_still_gives_independent_walkers_inside_bounds():
+    # regression test (see the module docstring): one parameter 1e9 wide, the best fit on its upper bound
+    ctx = _context(np.diag([1e-4, 1.9e9, 1e-3]), [0.5, 90.0, 0.0])
+    pos = _covariance_positions(ctx)
+    assert pos.shape == (8, 3)
+    assert np.all((pos > _Map.lower) & (pos < _Map.upper))
+    # emcee's own test of the initial ensemble (the reference library: the check EnsembleSampler.sample runs)
+    assert walkers_independent(pos)
+
+
+def test_ball_keeps_correlations_and_caps_widths():
+    # regression test: the cap scales a row and a column, so the correlation coefficients are unchanged
+    cov = np.array([[1e6, 0.5e3 * 0.9], [0.5e3 * 0.9, 0.25]])
+    ball = _bounded_ball(cov, np.array([0.0, 0.0]), np.array([10.0, 10.0]))
+    assert np.sqrt(ball[0, 0]) == 1.0  # a tenth of the range 0..10
+    assert ball[1, 1] == 0.25          # inside its cap: unchanged
+    assert np.isclose(ball[0, 1] / np.sqrt(ball[0, 0] * ball[1, 1]), 0.9)
