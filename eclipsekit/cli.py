@@ -278,7 +278,7 @@ _OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--p
               "mag_err_col": "--err-col", "mag_col": "--mag-col", "time_system": "--time-system",
               "time_offset": "--time-offset", "k_primary": "--k1", "k_secondary": "--k2",
               "teff_primary": "--teff1", "teff_secondary": "--teff2", "parallax": "--parallax",
-              "velocities": "--rv", "rv": "--rv", "joint": "--joint", "out": "--out", "folder": "--out",
+              "velocities": "--rv", "rv": "--rv", "joint": "--joint", "out": "--out",
               "orbit": "--rv", "overwrite": "--overwrite"}
 
 #: Python values in messages -> what the option takes (`err_col=False` is --err-col none)
@@ -288,9 +288,14 @@ _PYTHON_NAME = re.compile(r"`(\w+)(?:\[([^\]`]*)\]|=([^`]*))?`")
 
 
 def _option_names(args: argparse.Namespace) -> dict[str, str]:
-    """The part of :data:`_OPTION_OF` whose options the command ``args`` came from has."""
-    return {name: option for name, option in _OPTION_OF.items()
-            if hasattr(args, option.lstrip("-").replace("-", "_"))}
+    """The part of :data:`_OPTION_OF` whose options the command ``args`` came from has.
+
+    ``demo`` is ``run`` on the bundled sample: its messages name the options of ``run``.
+    """
+    dests = set(vars(args))
+    if args.command == "demo":
+        dests |= set(vars(build_parser().parse_args(["run", "lc.csv"])))
+    return {name: option for name, option in _OPTION_OF.items() if option.lstrip("-").replace("-", "_") in dests}
 
 
 def _in_option_terms(message: str, names: dict[str, str]) -> str:

@@ -122,9 +122,9 @@ def plot_periodograms(search: Any, lc: Any = None, fit: Any = None) -> Figure:
     t0 = getattr(search, "t0", None)
     if fit is not None:
         period, t0 = fit.values["period"], fit.values["t0"]
-        title = f"Fitted period {format_value(period, fit.uncertainties.get('period'))} d (eclipse fit)"
+        title = f"P = {format_value(period, fit.uncertainties.get('period'))} d (eclipse fit)"
     else:
-        title = f"Search period {format_value(period, getattr(search, 'period_err', None))} d (period search)"
+        title = f"P = {format_value(period, getattr(search, 'period_err', None))} d (period search)"
     if found:
         for ax in (ax1, ax2):
             ax.axvline(period, color=PALETTE["vermillion"], lw=0.8, ls="--", zorder=0)
