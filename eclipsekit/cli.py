@@ -30,17 +30,26 @@ def _common(parser: argparse.ArgumentParser) -> None:
 
 
 # ---- value parsing -----------------------------------------------------------------
-def _value_error(text: str) -> tuple[float, float] | float:
-    """``V±E`` (or ``V+-E``, ``V +/- E``) as (value, error); a bare number as a value without error."""
+def _value_error(text: str) -> tuple[float, float]:
+    """``V±E`` (or ``V+-E``, ``V +/- E``) as (value, error); the error must be given, and positive.
+
+    A bare number is refused: taken as exact, it would give answers with no (or a
+    falsely small) uncertainty.
+    """
     from .dimensions import parse_value_error
 
     try:
-        return parse_value_error(text)
+        value, error = parse_value_error(text)
     except InputError as exc:
         try:
-            return float(text)
+            float(text)
         except ValueError:
             raise argparse.ArgumentTypeError(str(exc)) from None
+        raise argparse.ArgumentTypeError(f"{text!r} has no uncertainty: give it as {text.strip()}±E (or "
+                                         f"{text.strip()}+-E), E its one-sigma uncertainty") from None
+    if not error > 0:
+        raise argparse.ArgumentTypeError(f"{text!r}: the uncertainty must be positive")
+    return value, error
 
 
 def _positive_float(text: str) -> float:
@@ -57,7 +66,8 @@ def _reader_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("light-curve columns and time")
     g.add_argument("--time-col", metavar="NAME", help="name of the time column")
     g.add_argument("--flux-col", metavar="NAME", help="name of the flux column")
-    g.add_argument("--err-col", metavar="NAME", help="name of the flux (or magnitude) error column")
+    g.add_argument("--err-col", metavar="NAME", help="name of the flux (or magnitude) error column; 'none' to "
+                   "use no error column and estimate the errors from the point-to-point scatter")
     g.add_argument("--mag-col", metavar="NAME", help="name of a magnitude column (converted to flux)")
     g.add_argument("--time-system", metavar="SYSTEM",
                    help="BJD_TDB, HJD, JD, MJD or unknown (overrides what is detected)")
@@ -131,8 +141,26 @@ def _output_options(p: argparse.ArgumentParser, default: str | None) -> None:
 def _read_lc(args: argparse.Namespace):
     from .data import read_light_curve
 
-    return read_light_curve(args.file, time_col=args.time_col, flux_col=args.flux_col, err_col=args.err_col,
+    # --err-col none: use no error column (errors from the scatter), read_light_curve's err_col=False
+    err_col = False if args.err_col is not None and args.err_col.strip().lower() == "none" else args.err_col
+    return read_light_curve(args.file, time_col=args.time_col, flux_col=args.flux_col, err_col=err_col,
                             mag_col=args.mag_col, time_system=args.time_system, time_offset=args.time_offset)
+
+
+#: Python names in the velocity reader's messages -> options that set them for --rv FILE (the
+#: light-curve column options do not apply to it)
+_VELOCITY_OPTION_OF: dict[str, str] = {}
+
+
+def _read_rv(path: str):
+    """The velocities of --rv FILE; their errors name no light-curve option."""
+    from .data import read_velocities
+
+    try:
+        return read_velocities(path)
+    except EclipsekitError as exc:
+        exc.option_names = _VELOCITY_OPTION_OF
+        raise
 
 
 # ---- eclipse-fit options ------------------------------------------------------------
@@ -238,23 +266,57 @@ def _floats(option: str, tokens: list[str] | None) -> list[float] | None:
         raise InputError(f"{option} takes numbers (limb-darkening coefficients), got {' '.join(tokens)!r}") from None
 
 
-#: Python argument names in the package's messages -> the command-line options that set them
+#: Python argument names in the package's messages -> the command-line options that set them.  The
+#: package names Python arguments in backticks (`err_col`, `priors['x']`, `overwrite=True`); the
+#: command line shows the option instead, when the command has it (see _in_option_terms).
 _OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--prior", "errors": "--errors",
               "mcmc_seconds": "--mcmc-seconds", "mcmc_walkers": "--mcmc-walkers", "mcmc_steps": "--mcmc-steps",
               "exposure_time": "--exposure-time", "supersample": "--supersample", "ld_law": "--ld-law",
               "ld_primary": "--ld1", "ld_secondary": "--ld2", "period": "--period", "t0": "--t0",
-              "min_period": "--min-period", "max_period": "--max-period", "seed": "--seed"}
+              "min_period": "--min-period", "max_period": "--max-period", "oversample": "--oversample",
+              "seed": "--seed", "time_col": "--time-col", "flux_col": "--flux-col", "err_col": "--err-col",
+              "mag_err_col": "--err-col", "mag_col": "--mag-col", "time_system": "--time-system",
+              "time_offset": "--time-offset", "k_primary": "--k1", "k_secondary": "--k2",
+              "teff_primary": "--teff1", "teff_secondary": "--teff2", "parallax": "--parallax",
+              "velocities": "--rv", "rv": "--rv", "joint": "--joint", "out": "--out",
+              "orbit": "--rv", "overwrite": "--overwrite"}
+
+#: Python values in messages -> what the option takes (`err_col=False` is --err-col none)
+_OPTION_VALUE = {"True": "", "False": "none", "None": "none"}
+
+_PYTHON_NAME = re.compile(r"`(\w+)(?:\[([^\]`]*)\]|=([^`]*))?`")
 
 
-def _in_option_terms(message: str) -> str:
-    """The package's messages name Python arguments (`priors['x']`); on the command line, name the options."""
+def _option_names(args: argparse.Namespace) -> dict[str, str]:
+    """The part of :data:`_OPTION_OF` whose options the command ``args`` came from has.
+
+    ``demo`` is ``run`` on the bundled sample: its messages name the options of ``run``.
+    """
+    dests = set(vars(args))
+    if args.command == "demo":
+        dests |= set(vars(build_parser().parse_args(["run", "lc.csv"])))
+    return {name: option for name, option in _OPTION_OF.items() if option.lstrip("-").replace("-", "_") in dests}
+
+
+def _in_option_terms(message: str, names: dict[str, str]) -> str:
+    """The package's messages name Python arguments (`priors['x']`); on the command line, name the options.
+
+    ``names`` maps the Python names to the options of the command at hand; a name
+    without an option there is left as it is (never an option the command lacks).
+    """
     def option(m: re.Match) -> str:
-        name, key = m.group(1), m.group(2)
-        if name not in _OPTION_OF:
+        name, key, value = m.group(1), m.group(2), m.group(3)
+        if name not in names:
             return m.group(0)
-        return _OPTION_OF[name] + (" " + key.strip("[]'\"") if key else "")
+        if key is not None:
+            value = key
+        if value is None or not value.strip("=[]()'\" ,"):
+            return names[name]
+        value = value.strip()
+        value = _OPTION_VALUE.get(value, " ".join(re.findall(r"[^\s\[\]()'\",]+", value)))
+        return f"{names[name]} {value}".rstrip()
 
-    return re.sub(r"`(\w+)(\[[^\]`]*\])?`", option, message)
+    return _PYTHON_NAME.sub(option, message)
 
 
 def _command_line(argv: Sequence[str] | None) -> str:
@@ -334,7 +396,7 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
             if getattr(args, option) is not None:
                 fit_options[option] = getattr(args, option)
         lc = _read_lc(args)
-        rv = getattr(args, "rv", None)
+        rv = _read_rv(args.rv) if getattr(args, "rv", None) is not None else None
     prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
     exposure = None if getattr(args, "exposure_time", None) is None else args.exposure_time / 86400.0
     analysis = analyse(
@@ -347,7 +409,7 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         errors=getattr(args, "errors", "auto"), progress=not args.quiet, seed=getattr(args, "seed", None),
         joint=getattr(args, "joint", False), command=args.command_line, fit_options=fit_options, **choices)
     written = analysis.write(args.out, overwrite=True)
-    print(analysis.summary())
+    print(_in_option_terms(analysis.summary(), _option_names(args)))
     print()
     print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
     # "poor_fit" and "caution" are answers with a caveat (on the summary's first line); the rest did not conclude
@@ -371,9 +433,7 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
     orbit = None
     rv = None
     if args.rv is not None:
-        from .data import read_velocities
-
-        rv = read_velocities(args.rv)
+        rv = _read_rv(args.rv)
         orbit = fit_velocities(rv, light, seed=args.seed)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", EclipsekitWarning)
@@ -386,7 +446,7 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
     from .summary import format_summary
 
     text = format_summary(content)
-    print(text)
+    print(_in_option_terms(text, _option_names(args)))
     if args.out:
         written = write_dimension_files(args.out, content, text, orbit=orbit, dimensions=dims)
         print()
@@ -474,13 +534,15 @@ def main(argv: Sequence[str] | None = None) -> int:
             warnings.simplefilter("ignore", EclipsekitWarning)
         else:
             warnings.simplefilter("always", EclipsekitWarning)
-            warnings.showwarning = _show_warning
+            warnings.showwarning = _warning_printer(_option_names(args))
         try:
             return int(args.func(args) or 0)
         except EclipsekitError as exc:
             if debug:
                 raise
-            print(f"eclipsekit: error: {_in_option_terms(str(exc))}", file=sys.stderr)
+            names = getattr(exc, "option_names", None)
+            names = _option_names(args) if names is None else names
+            print(f"eclipsekit: error: {_in_option_terms(str(exc), names)}", file=sys.stderr)
             return 2 if isinstance(exc, InputError) else 1
         except OSError as exc:  # e.g. an output folder that cannot be written
             if debug:
@@ -493,8 +555,12 @@ def main(argv: Sequence[str] | None = None) -> int:
             return 130
 
 
-def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    print(f"eclipsekit: warning: {message}", file=sys.stderr)
+def _warning_printer(names: dict[str, str]):
+    """A ``warnings.showwarning`` printing one line, in the command's option terms."""
+    def show(message, category, filename, lineno, file=None, line=None) -> None:
+        print(f"eclipsekit: warning: {_in_option_terms(str(message), names)}", file=sys.stderr)
+
+    return show
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -550,9 +550,9 @@ def _column(raw: _RawTable, override: str | None, option: str, found: str | None
 
 
 def _missing_column(raw: _RawTable, what: str, option: str, extra: str = "") -> InputError:
-    flag = "--" + option.replace("_", "-")
+    # the command line shows its own option for `option` (eclipsekit.cli._in_option_terms)
     return InputError(f"{raw.name}: no {what} column found (columns found: {_list_columns(raw.table.colnames)}); "
-                      f"name it with `{option}=` ({flag}){extra}")
+                      f"name it with `{option}`{extra}")
 
 
 def _numeric(raw: _RawTable, name: str) -> np.ndarray:
@@ -821,22 +821,26 @@ def _light_curve_columns(raw: _RawTable, *, time_col, flux_col, err_col, mag_col
             value = _columns.find_column(names, _columns.MAG_NAMES)
             kind = "mag"
     if value is None:
-        raise _missing_column(raw, "flux or magnitude", "flux_col", " or `mag_col=` (--mag-col)")
+        raise _missing_column(raw, "flux or magnitude", "flux_col", " or `mag_col`")
     if value == time:
         raise InputError(f"{raw.name}: the time and {kind} columns are both {value!r}")
-    if mag_err_col is not None and (kind != "mag" or err_col is not None):
+    if mag_err_col is not None and (kind != "mag" or err_col not in (None, False)):
         raise InputError("`mag_err_col` names the error of a magnitude column; give it with `mag_col` "
                          "(or a detected magnitude column) and without `err_col`")
     err_override, err_option = (mag_err_col, "mag_err_col") if mag_err_col is not None else (err_col, "err_col")
     others = [n for n in names if n not in (time, value)]
-    err = _column(raw, err_override, err_option,
-                  _columns.find_column(others, _columns.error_candidates(value, kind)))
+    if err_override is False:  # no error column wanted: errors from the scatter
+        err = None
+    else:
+        err = _column(raw, err_override, err_option,
+                      _columns.find_column(others, _columns.error_candidates(value, kind)))
     quality = _column(raw, quality_col, "quality_col", _columns.find_column(others, _columns.QUALITY_NAMES))
     return {"time": time, kind: value, "err": err, "quality": quality}
 
 
 def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_col: str | None = None,
-                     err_col: str | None = None, mag_col: str | None = None, mag_err_col: str | None = None,
+                     err_col: str | bool | None = None, mag_col: str | None = None,
+                     mag_err_col: str | bool | None = None,
                      quality_col: str | None = None, time_system: str | None = None,
                      time_offset: float | u.Quantity | None = None, normalise: bool = True) -> LightCurve:
     """Read a light curve from a CSV, whitespace ASCII, ECSV or FITS table.
@@ -847,7 +851,9 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
         The file.  FITS is recognised by its content, ECSV by its header; other text
         is read as CSV (commas) or whitespace-separated columns, ``#`` starting comments.
     time_col, flux_col, err_col, mag_col, mag_err_col, quality_col : str, optional
-        Column names (case-insensitive), overriding detection by common names.
+        Column names (case-insensitive), overriding detection by common names.  None
+        (the default) detects the column.  ``err_col=False`` (or ``mag_err_col=False``)
+        uses no error column at all: the errors are then estimated from the scatter.
     time_system : {"BJD_TDB", "HJD", "JD", "MJD", "unknown"}, optional
         Overrides the system implied by the FITS header or the time column's name.
     time_offset : float or Quantity, optional
@@ -877,7 +883,8 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
     Warns
     -----
     EclipsekitWarning
-        When no error column is found and errors are estimated from the scatter.
+        When errors are estimated from the scatter: no error column found, one that is
+        empty (all NaN), or ``err_col=False``.
 
     Notes
     -----
@@ -902,6 +909,10 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
 
     _check_all_nan(raw, cols["time"], time)
     _check_all_nan(raw, value_name, value)
+    # an empty error column is no error column (the errors are then estimated from the scatter)
+    empty_err = cols["err"] if err is not None and not np.any(np.isfinite(err)) else None
+    if empty_err is not None:
+        err, cols["err"] = None, None
     keep = np.ones(time.size, bool)
     rejected: dict[str, np.ndarray] = {}
     if quality is not None:
@@ -938,8 +949,11 @@ def read_light_curve(path: str | PathLike, *, time_col: str | None = None, flux_
     if e is not None:
         e = e / level
     else:
-        e = _estimated_errors(raw, value_name, v)
-        notes.append("no error column: errors estimated from the point-to-point scatter")
+        why = (f"error column {empty_err!r} is empty (all NaN)" if empty_err is not None
+               else "error column not used, as asked" if err_col is False or mag_err_col is False
+               else "no error column found")
+        e = _estimated_errors(raw, value_name, v, why)
+        notes.append(f"{why}: errors estimated from the point-to-point scatter")
     _check_ranges(raw, cols, value_name, t, v, e, rows)
     meta.update({
         "source": str(raw.path), "format": raw.format, "time_system": system, "time_offset": offset,
@@ -998,12 +1012,13 @@ def _median_step(t: np.ndarray) -> float:
     return float(np.median(np.diff(t))) if t.size > 1 else float("nan")
 
 
-def _estimated_errors(raw: _RawTable, name: str, flux: np.ndarray) -> np.ndarray:
+def _estimated_errors(raw: _RawTable, name: str, flux: np.ndarray, why: str) -> np.ndarray:
+    """One error for every point from the point-to-point scatter, with one warning saying ``why``."""
     sigma = _scatter_error(flux)
     if not (math.isfinite(sigma) and sigma > 0):
-        raise InputError(f"{raw.name}: no error column, and the flux in {name!r} has no point-to-point scatter "
-                         "to estimate errors from; name an error column with `err_col=` (--err-col)")
-    warnings.warn(f"{raw.name}: no error column found; using {sigma:.3g} (relative flux) for every point, "
+        raise InputError(f"{raw.name}: {why}, and the flux in {name!r} has no point-to-point scatter "
+                         "to estimate errors from; name an error column with `err_col`")
+    warnings.warn(f"{raw.name}: {why}; using {sigma:.3g} (relative flux) for every point, "
                   "estimated from the point-to-point scatter", EclipsekitWarning, stacklevel=3)
     return np.full(flux.size, sigma)
 

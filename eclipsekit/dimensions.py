@@ -26,7 +26,7 @@ import numpy as np
 from . import _notes
 from ._validate import to_unit
 from .errors import InputError
-from .summary import format_value
+from .summary import format_value, has_uncertainty, short_label
 
 __all__ = [
     "AbsoluteDimensions",
@@ -41,8 +41,6 @@ __all__ = [
     "bolometric_magnitude",
     "surface_gravity",
     "distance_from_parallax",
-    "main_sequence_luminosity",
-    "main_sequence_mass",
     "parse_value_error",
 ]
 
@@ -225,56 +223,9 @@ def distance_from_parallax(parallax):
     return float(out) if np.ndim(out) == 0 else out
 
 
-# --- main-sequence mass-luminosity relation (sanity check only) ----------------------
-# Piecewise L/L_sun = c M^a, the form commonly quoted in textbooks (common practice;
-# coefficients from memory).  Breaks at 0.43, 2 and 55 M_sun; continuous to ~3%.
-_ML_PIECES = ((0.43, 0.23, 2.3), (2.0, 1.0, 4.0), (55.0, 1.4, 3.5), (np.inf, 32000.0, 1.0))
-_ML_RANGE = (0.1, 100.0)
-
-
-def main_sequence_luminosity(mass):
-    """Main-sequence luminosity (L_sun) of a star of ``mass`` (M_sun), a rough relation.
-
-    Notes
-    -----
-    The piecewise power law commonly quoted for main-sequence stars (common practice;
-    coefficients from memory, not from a checked source)::
-
-        L = 0.23 M^2.3     M < 0.43
-        L = M^4            0.43 <= M < 2
-        L = 1.4 M^3.5      2 <= M < 55
-        L = 32000 M        M >= 55
-
-    It describes the zero-age to middle main sequence to a few tenths of a dex and
-    is used here only as a sanity check.  For an empirical calibration from detached
-    eclipsing binaries see Eker et al. (2015, AJ 149, 131).
-    """
-    m = np.asarray(mass, float)
-    out = np.empty_like(m)
-    lo = -np.inf
-    for hi, c, a in _ML_PIECES:
-        sel = (m >= lo) & (m < hi)
-        out[sel] = c * m[sel] ** a
-        lo = hi
-    return float(out) if out.ndim == 0 else out
-
-
-def main_sequence_mass(lum):
-    """Inverse of :func:`main_sequence_luminosity`: mass (M_sun) of a main-sequence star of ``lum`` (L_sun)."""
-    lum = np.asarray(lum, float)
-    out = np.full_like(lum, np.nan)
-    lo_m, edges = -np.inf, []
-    for hi, c, a in _ML_PIECES:
-        l_lo = 0.0 if lo_m == -np.inf else c * lo_m**a
-        edges.append((l_lo, c, a))
-        lo_m = hi
-    for i, (l_lo, c, a) in enumerate(edges):
-        l_hi = edges[i + 1][0] if i + 1 < len(edges) else np.inf
-        sel = (lum >= l_lo) & (lum < l_hi)
-        out[sel] = (lum[sel] / c) ** (1 / a)
-    return float(out) if out.ndim == 0 else out
-
-
+# --- main-sequence reference line of the mass-radius figure ----------------------------
+# (No main-sequence mass-luminosity check: its coefficients were from memory, with no source
+# to cite, so a verdict printed beside a star's luminosity could not be trusted.)
 def main_sequence_radius(mass):
     """Main-sequence radius (R_sun) of a star of ``mass`` (M_sun), a rough relation.
 
@@ -328,11 +279,10 @@ class AbsoluteDimensions:
     inputs : dict of str -> dict
         Value, uncertainty, unit and source of each input.
     budget : dict of str -> str
-        Which inputs dominate each uncertainty, e.g. ``"71% from k_secondary, ..."``.
+        Which inputs dominate each uncertainty, by the labels of the printed tables,
+        e.g. ``"71% from K2, 22% from K1, 7% from r1"``.
     budget_shares : dict of str -> dict of str -> float
-        The same as variance fractions.
-    main_sequence : dict of str -> dict
-        Mass-luminosity sanity check per star (when temperatures are given).
+        The same as variance fractions, keyed by input name (``k_secondary``, ...).
     warnings : list of str
     n_samples : int
     """
@@ -344,7 +294,6 @@ class AbsoluteDimensions:
     inputs: dict[str, dict[str, Any]] = field(repr=False)
     budget: dict[str, str] = field(repr=False)
     budget_shares: dict[str, dict[str, float]] = field(repr=False)
-    main_sequence: dict[str, dict[str, Any]] = field(repr=False)
     warnings: list[str] = field(default_factory=list)
     n_samples: int = 0
 
@@ -360,11 +309,8 @@ class AbsoluteDimensions:
             dom = self.budget.get(k, "")
             dom_s = f"   [{dom}]" if dom else ""
             text = format_value(v, self.uncertainties.get(k))
-            lines.append(f"  {k:<26s} {text:>24s} {self.units.get(k, ''):<12s}{dom_s}".rstrip())
-        for star, chk in self.main_sequence.items():
-            lines.append(f"  main-sequence check, {star}: L = {chk['luminosity']:.3g} L_sun vs "
-                         f"{chk['ms_luminosity']:.3g} from M = {chk['mass']:.3g} M_sun "
-                         f"({chk['offset_dex']:+.2f} dex){'  <-- far from the relation' if chk['flag'] else ''}")
+            unit = self.units.get(k, "") + ("" if self.uncertainties.get(k) is not None else " (no uncertainty)")
+            lines.append(f"  {k:<26s} {text:>24s} {unit:<12s}{dom_s}".rstrip())
         for w in self.warnings:
             lines.append(f"  warning: {w}")
         return "\n".join(lines)
@@ -494,7 +440,6 @@ def absolute_dimensions(
     eccentricity: Any = None,
     n_samples: int = 20000,
     seed: int | np.random.Generator | None = None,
-    ms_tolerance: float = 0.5,
 ) -> AbsoluteDimensions:
     """Masses, radii, gravities, densities, luminosities of both stars.
 
@@ -522,9 +467,6 @@ def absolute_dimensions(
         Number of Monte Carlo samples.
     seed : int or Generator, optional
         For reproducible samples.
-    ms_tolerance : float
-        Flag stars whose luminosity differs from the main-sequence relation by more
-        than this many dex.
 
     Returns
     -------
@@ -564,11 +506,6 @@ def absolute_dimensions(
     that holds a value, else e = 0 (with a warning).  Eccentricity samples below zero
     (Gaussian draws of a small e) are reflected to |e|.
 
-    Each star is compared with a main-sequence mass-luminosity relation
-    (:func:`main_sequence_luminosity`); stars more than ``ms_tolerance`` dex away are
-    flagged with a warning.  This is a sanity check, not a result: evolved stars
-    legitimately lie above the relation.
-
     References
     ----------
     .. [1] Hilditch, R. W. 2001, An Introduction to Close Binary Stars (CUP).
@@ -600,9 +537,9 @@ def absolute_dimensions(
     draws = _draw_inputs(inputs, _same_sample_set(eclipse_fit, orbit), n_samples, rng, notes)
     out = _derive(draws, have_radii)
     values = {k: float(np.median(v)) for k, v in out.items()}
-    uncert = {k: float(np.std(v)) for k, v in out.items()}
+    # exact inputs give exact outputs: no uncertainty (None), not a rounding-noise "± 0.000000"
+    uncert = {k: float(np.std(v)) if has_uncertainty(values[k], float(np.std(v))) else None for k, v in out.items()}
     budget, shares = _uncertainty_budget(draws, out, have_radii)
-    ms = _main_sequence_check(values, ms_tolerance, notes)
 
     samples = dict(out)
     for k, v in draws.items():
@@ -611,7 +548,7 @@ def absolute_dimensions(
             for k, v in inputs.items()}
     return AbsoluteDimensions(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
                               samples=samples, inputs=info, budget=budget, budget_shares=shares,
-                              main_sequence=ms, warnings=notes.messages,
+                              warnings=notes.messages,
                               n_samples=int(next(iter(out.values())).size))
 
 
@@ -678,7 +615,7 @@ def _eccentricity_input(eclipse_fit: Any, orbit: Any, notes: _notes.Notes) -> _I
 
 def _check_inputs(inputs: dict[str, _Input], notes: _notes.Notes) -> bool:
     """Refuse missing or unphysical inputs; return whether both fractional radii are known."""
-    for name, hint in (("k_primary", "give `orbit` or `k_primary=(value, error)` in km/s"),
+    for name, hint in (("k_primary", "give `orbit`, or `k_primary` with its error (km/s)"),
                        ("k_secondary", "double-lined velocities are needed for masses; give `k_secondary`"),
                        ("period", "give `eclipse_fit`, `orbit` or `period`"),
                        ("inclination", "give `eclipse_fit` or `inclination` in degrees")):
@@ -797,30 +734,6 @@ def _uncertainty_budget(draws: dict[str, np.ndarray], out: dict[str, np.ndarray]
             continue
         sh = {k: v / tot for k, v in sorted(parts.items(), key=lambda kv: -kv[1]) if v / tot >= 0.005}
         shares[q] = sh
-        budget[q] = ", ".join(f"{100 * v:.0f}% from {k}" for k, v in sh.items() if v >= 0.01)
+        # the inputs by their labels in the printed tables (K2, r1, ...), as the summary shows them
+        budget[q] = ", ".join(f"{100 * v:.0f}% from {short_label(k)}" for k, v in sh.items() if v >= 0.01)
     return budget, shares
-
-
-def _main_sequence_check(values: dict[str, float], ms_tolerance: float, notes: _notes.Notes
-                         ) -> dict[str, dict[str, Any]]:
-    """Each star's luminosity against the main-sequence relation at its mass (with temperatures only)."""
-    ms: dict[str, dict[str, Any]] = {}
-    for star in ("primary", "secondary"):
-        if f"luminosity_{star}" not in values:
-            continue
-        m, lum = values[f"mass_{star}"], values[f"luminosity_{star}"]
-        l_ms = main_sequence_luminosity(m)
-        off = float(np.log10(lum / l_ms))
-        in_range = _ML_RANGE[0] <= m <= _ML_RANGE[1]
-        flag = bool(in_range and abs(off) > ms_tolerance)
-        ms[star] = {"mass": m, "luminosity": lum, "ms_luminosity": l_ms, "offset_dex": off,
-                    "flag": flag, "in_range": in_range}
-        if flag:
-            where = "above" if off > 0 else "below"
-            notes.warn(f"the {star} (M = {m:.3g} M_sun, L = {lum:.3g} L_sun) lies {abs(off):.2f} dex {where} the "
-                       f"main-sequence mass-luminosity relation (L = {l_ms:.3g} L_sun); "
-                       f"{'an evolved star, or ' if off > 0 else ''}check the temperatures and the K's")
-        elif not in_range:
-            notes.note(f"the {star}'s mass {m:.3g} M_sun is outside the range of the "
-                       f"mass-luminosity check ({_ML_RANGE[0]}-{_ML_RANGE[1]} M_sun)")
-    return ms

@@ -200,12 +200,12 @@ class PeriodSearch:
                 f"  period            {format_value(self.period, self.period_err)} d",
                 f"  t0 (mid-primary)  {format_value(self.t0, self.t0_err)} d",
                 f"  primary           depth {format_value(self.depth_primary, self.depth_primary_err)}, "
-                f"duration {self.duration_primary:.4f} d, {self.n_eclipses_primary} eclipses observed",
+                f"duration {format_value(self.duration_primary)} d, {self.n_eclipses_primary} eclipses observed",
             ]
             if self.secondary_detected:
                 lines.append(
                     f"  secondary         depth {format_value(self.depth_secondary, self.depth_secondary_err)}, "
-                    f"duration {self.duration_secondary:.4f} d, phase {self.phase_secondary:.4f}, "
+                    f"duration {format_value(self.duration_secondary)} d, phase {format_value(self.phase_secondary)}, "
                     f"{self.n_eclipses_secondary} eclipses observed")
             else:
                 lines.append("  secondary         not detected")

@@ -345,13 +345,13 @@ class _RunOptions:
         measured = options["measured"]
         _check_fit_options(lc, options)
         if velocities is not None and (measured["k_primary"] is not None or measured["k_secondary"] is not None):
-            raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
+            raise InputError("give either `velocities` or `k_primary`/`k_secondary` amplitudes, not both")
         if options["joint"] and velocities is None:
-            raise InputError("a joint fit needs velocities: give --rv (or drop --joint)")
+            raise InputError("a joint fit needs velocities: give `velocities` (or drop `joint=True`)")
         exposure = _exposure_days(exposure_time, lc)
         if exposure is None and lc.cadence > LONG_CADENCE:
             _notes.warn(f"median cadence is {lc.cadence * 1440:.1f} min and no exposure time is known: eclipses "
-                        "are smeared and the fitted radii and inclination will be biased; give --exposure-time")
+                        "are smeared and the fitted radii and inclination will be biased; give `exposure_time`")
         return cls(exposure=exposure, **options)
 
 
@@ -427,7 +427,7 @@ def _fit_orbit_and_dimensions(analysis: Analysis, options: _RunOptions) -> None:
         with _Timer(analysis.timings, "velocity fit"):
             analysis.orbit = fit_velocities(analysis.rv, analysis.eclipse_fit, seed=options.seed)
     if analysis.orbit is None and options.measured["k_primary"] is None:
-        stop = "no velocities given: stopped after the eclipse fit (give --rv or --k1/--k2 for masses and radii)"
+        stop = results.NO_VELOCITIES
         analysis.message = f"{analysis.message}; {stop}" if analysis.message else stop
         return
     with _Timer(analysis.timings, "absolute dimensions"):

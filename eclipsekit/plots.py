@@ -50,11 +50,31 @@ def _figure(height: float, width: float = _COLUMN) -> Figure:
     return Figure(figsize=(width, height), layout="constrained")
 
 
-def _plain_log_axis(axis: Any) -> None:
-    """Label a logarithmic axis with plain numbers (0.5, 1, 2, ...) rather than powers of ten."""
-    fmt = FuncFormatter(lambda x, _: f"{x:g}")
-    axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
-    axis.set_major_formatter(fmt)
+#: mantissas of the labelled ticks of a log axis, sparsest first (see _plain_log_axis)
+_LOG_SUBS = ((1.0,), (1.0, 2.0, 5.0), (1.0, 2.0, 3.0, 5.0), (1.0, 1.5, 2.0, 3.0, 5.0, 7.0),
+             (1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0))
+#: fewest labelled ticks wanted on a log axis
+_MIN_LOG_TICKS = 4
+
+
+def _plain_log_axis(axis: Any, limits: tuple[float, float] | None = None) -> None:
+    """Label a logarithmic axis with plain numbers (0.5, 1, 2, ...) rather than powers of ten.
+
+    The labelled ticks are the sparsest set of :data:`_LOG_SUBS` that puts at least
+    :data:`_MIN_LOG_TICKS` ticks within ``limits`` (default: the axis's current view), so
+    an axis spanning less than a decade still carries enough numbers to read values off.
+    """
+    lo, hi = sorted(limits if limits is not None else axis.get_view_interval())
+    for subs in _LOG_SUBS:
+        candidate = LogLocator(base=10, subs=subs, numticks=100)
+        ticks = candidate.tick_values(lo, hi)
+        if np.count_nonzero((ticks >= lo) & (ticks <= hi)) >= _MIN_LOG_TICKS:
+            locator = candidate
+            break
+    else:
+        locator = LogLocator(base=10, subs=_LOG_SUBS[-1], numticks=100)
+    axis.set_major_locator(locator)
+    axis.set_major_formatter(FuncFormatter(lambda x, _: f"{x:g}"))
     axis.set_minor_formatter(FuncFormatter(lambda x, _: ""))
 
 
@@ -70,13 +90,17 @@ def _binned(x: np.ndarray, y: np.ndarray, n_bins: int, lo: float, hi: float) -> 
     return centre[good], sums[good] / counts[good]
 
 
-def plot_periodograms(search: Any, lc: Any = None) -> Figure:
-    """Box-least-squares power and PDM θ against trial period, with the chosen period marked.
+def plot_periodograms(search: Any, lc: Any = None, fit: Any = None) -> Figure:
+    """Box-least-squares power and PDM θ against trial period, with the period marked.
 
-    With the light curve ``lc``, a third panel shows it folded on the chosen period (or
+    With the eclipse ``fit``, the period marked, folded on and given in the title is the
+    fitted one (the final answer), and the title says so; without it, the search's.
+    With the light curve ``lc``, a third panel shows it folded on that period (or
     against time when no eclipse was found).  A dotted line marks the other reading of
     an ambiguous search (``alternative_period``).
     """
+    from .summary import format_value
+
     fig = _figure(4.6 if lc is not None else 3.3)
     axes = fig.subplots(3 if lc is not None else 2, 1)
     ax1, ax2 = axes[0], axes[1]
@@ -95,19 +119,25 @@ def plot_periodograms(search: Any, lc: Any = None) -> Figure:
     _plain_log_axis(ax2.xaxis)
     period = getattr(search, "period", None)
     found = getattr(search, "found", True) and period is not None and np.isfinite(period)
+    t0 = getattr(search, "t0", None)
+    if fit is not None:
+        period, t0 = fit.values["period"], fit.values["t0"]
+        title = f"P = {format_value(period, fit.uncertainties.get('period'))} d (eclipse fit)"
+    else:
+        title = f"P = {format_value(period, getattr(search, 'period_err', None))} d (period search)"
     if found:
         for ax in (ax1, ax2):
             ax.axvline(period, color=PALETTE["vermillion"], lw=0.8, ls="--", zorder=0)
             alternative = getattr(search, "alternative_period", None)
             if alternative is not None and np.isfinite(alternative):
                 ax.axvline(alternative, color=PALETTE["sky"], lw=0.8, ls=":", zorder=0)
-        ax1.set_title(f"Chosen period {period:.6f} d", loc="left")
+        ax1.set_title(title, loc="left")
     else:
         ax1.set_title("No significant periodic eclipse", loc="left")
     if lc is not None:
         ax3 = axes[2]
         if found:
-            phase = orbital_phase(lc.time, period, search.t0, -0.25)
+            phase = orbital_phase(lc.time, period, t0, -0.25)
             ax3.plot(phase, lc.flux, ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True)
             bx, by = _binned(phase, lc.flux, 400, -0.25, 0.75)
             ax3.plot(bx, by, ".", ms=2.0, color=PALETTE["blue"])
@@ -238,8 +268,12 @@ def plot_velocities(orbit: Any) -> Figure:
 
 
 def plot_mass_radius_luminosity(dimensions: Any) -> Figure:
-    """Both stars on mass–radius and mass–luminosity diagrams, with a main-sequence reference."""
-    from .dimensions import main_sequence_luminosity, main_sequence_radius
+    """Both stars on mass–radius and mass–luminosity diagrams.
+
+    The mass–radius panel carries a rough main-sequence radius line; the mass–luminosity
+    panel carries no reference relation (none with citable coefficients is built in).
+    """
+    from .dimensions import main_sequence_radius
 
     v, e = dimensions.values, dimensions.uncertainties
     has_lum = "luminosity_primary" in v
@@ -250,9 +284,10 @@ def plot_mass_radius_luminosity(dimensions: Any) -> Figure:
     grid = np.geomspace(max(lo, 0.1), min(hi, 50.0), 200)
     panels = [("radius", "Radius (R$_\\odot$)", main_sequence_radius)]
     if has_lum:
-        panels.append(("luminosity", "Luminosity (L$_\\odot$)", main_sequence_luminosity))
+        panels.append(("luminosity", "Luminosity (L$_\\odot$)", None))
     for ax, (quantity, label, relation) in zip(axes, panels):
-        ax.plot(grid, relation(grid), color=PALETTE["black"], lw=0.8, ls="--", label="main-sequence relation")
+        if relation is not None:
+            ax.plot(grid, relation(grid), color=PALETTE["black"], lw=0.8, ls="--", label="main sequence (rough)")
         for star, colour, marker in (("primary", PALETTE["blue"], "o"), ("secondary", PALETTE["orange"], "s")):
             m, dm = v[f"mass_{star}"], e.get(f"mass_{star}") or 0.0
             y, dy = v[f"{quantity}_{star}"], e.get(f"{quantity}_{star}") or 0.0
@@ -288,7 +323,7 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     """
     figures: dict[str, Figure] = {}
     if analysis.search is not None:
-        figures["periodograms"] = plot_periodograms(analysis.search)
+        figures["periodograms"] = plot_periodograms(analysis.search, fit=analysis.eclipse_fit)
     if analysis.eclipse_fit is not None:
         figures["light_curve"] = plot_folded_light_curve(analysis.eclipse_fit)
         figures["eclipses"] = plot_eclipses(analysis.eclipse_fit)

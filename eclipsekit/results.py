@@ -276,9 +276,9 @@ def prepare_output_dir(path: str | os.PathLike, overwrite: bool = False) -> Path
     """Create the output folder; refuse an existing non-empty one unless ``overwrite``."""
     out = Path(path)
     if out.exists() and not out.is_dir():
-        raise InputError(f"output folder {str(out)!r} is a file; give a folder name with --out")
+        raise InputError(f"output folder {str(out)!r} is a file; give a folder name")
     if out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError(f"output folder {str(out)!r} is not empty; use --overwrite or another --out")
+        raise InputError(f"output folder {str(out)!r} is not empty; use `overwrite=True` or another folder")
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
@@ -384,6 +384,11 @@ def load_result(path: str | os.PathLike, n_samples: int = 20000) -> ResultSummar
     return ResultSummary(content, source=str(path), n_samples=n_samples)
 
 
+#: the status message's part saying a run stopped after the eclipse fit (dropped once masses are computed)
+NO_VELOCITIES = ("no velocities given: stopped after the eclipse fit (velocities, or the amplitudes K1 and K2, "
+                 "give masses and radii)")
+
+
 def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: Iterable[str],
                       command: str | None = None) -> dict[str, Any]:
     """A read-back ``result.json`` with the spectroscopic and absolute sections added."""
@@ -392,6 +397,9 @@ def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: 
     content["command"] = command
     # the light-curve fit's caveat still applies to the masses and radii
     content["status"] = content.get("status") if content.get("status") in ("poor_fit", "caution") else "ok"
+    # the eclipse fit's own caveat stays; "stopped after the eclipse fit" no longer holds
+    kept = [part for part in str(content.get("message") or "").split("; ") if part and part != NO_VELOCITIES]
+    content["message"] = "; ".join(kept)
     content["spectroscopy"] = _section([dimensions, orbit], SECTIONS["spectroscopy"])
     content["absolute"] = _section([dimensions], SECTIONS["absolute"])
     content["absolute"]["uncertainty_budget"] = dict(getattr(dimensions, "budget", {}) or {})

@@ -131,11 +131,11 @@ class OrbitFit:
             # values without uncertainty (a fixed ephemeris) keep the digits they were given with
             text = format_value(val, err, digits=_FIXED_DIGITS)
             lines.append(f"  {k:<22s} {text:>28s} {self.units.get(k, ''):<7s} {status}".rstrip())
-        lines.append(f"  rms primary {self.rms_primary:.3f} km/s"
-                     + (f", secondary {self.rms_secondary:.3f} km/s" if self.double_lined else ""))
+        lines.append(f"  rms primary {format_value(self.rms_primary)} km/s"
+                     + (f", secondary {format_value(self.rms_secondary)} km/s" if self.double_lined else ""))
         if not self.jitter and (self.error_scale_primary > 1 or self.error_scale_secondary > 1):
-            lines.append(f"  velocity errors scaled by {self.error_scale_primary:.3f} (primary)"
-                         + (f", {self.error_scale_secondary:.3f} (secondary)" if self.double_lined else ""))
+            lines.append(f"  velocity errors scaled by {format_value(self.error_scale_primary)} (primary)"
+                         + (f", {format_value(self.error_scale_secondary)} (secondary)" if self.double_lined else ""))
         if not self.success:
             lines.append(f"  FIT FAILED: {self.message}")
         lines += [f"  warning: {w}" for w in self.warnings]

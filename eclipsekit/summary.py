@@ -7,7 +7,7 @@ from collections.abc import Mapping
 from typing import Any
 
 
-__all__ = ["ASYMMETRY", "is_asymmetric", "format_value", "format_summary"]
+__all__ = ["ASYMMETRY", "DIGITS", "LABELS", "short_label", "is_asymmetric", "has_uncertainty", "format_value", "format_summary"]
 
 #: A 68% interval is asymmetric when its two sides differ by more than this fraction of the
 #: larger one (below that, the sampling noise of a few thousand draws and the two-figure
@@ -15,7 +15,8 @@ __all__ = ["ASYMMETRY", "is_asymmetric", "format_value", "format_summary"]
 #: interval and the summary prints ``value +upper/-lower``.
 ASYMMETRY = 0.2
 
-_LABELS = {
+#: the label of each quantity in the printed tables
+LABELS = {
     "period": "Period", "t0": "Epoch of primary minimum",
     "radius_sum": "r1 + r2", "radius_ratio": "k = r2/r1", "frac_radius_primary": "r1 = R1/a",
     "frac_radius_secondary": "r2 = R2/a", "inclination": "Inclination", "eccentricity": "Eccentricity",
@@ -35,7 +36,11 @@ _LABELS = {
     "density_primary": "Mean density 1", "density_secondary": "Mean density 2",
     "vsync_primary": "v_sync 1", "vsync_secondary": "v_sync 2", "luminosity_primary": "L1",
     "luminosity_secondary": "L2", "mbol_primary": "M_bol 1", "mbol_secondary": "M_bol 2", "distance": "Distance",
+    "teff_primary": "Teff1", "teff_secondary": "Teff2", "parallax": "Parallax",
 }
+
+#: statistics of the residuals, not estimates: they have no uncertainty to report
+_STATISTICS = ("rms_primary", "rms_secondary")
 
 _BUDGET_SHOWN = ("mass_primary", "mass_secondary", "radius_primary", "radius_secondary")
 
@@ -43,6 +48,11 @@ _TITLES = {
     "ephemeris": "Ephemeris", "geometry": "Geometry", "photometry": "Photometry",
     "spectroscopy": "Spectroscopic orbit", "absolute": "Absolute dimensions",
 }
+
+
+def short_label(name: str) -> str:
+    """The label of ``name`` without its definition ("r1" for "r1 = R1/a"), for inline use."""
+    return LABELS.get(name, name).split(" = ")[0]
 
 
 def is_asymmetric(value: float | None, interval: tuple[float, float] | None) -> bool:
@@ -53,7 +63,11 @@ def is_asymmetric(value: float | None, interval: tuple[float, float] | None) -> 
     return abs(above - below) > ASYMMETRY * max(abs(above), abs(below))
 
 
-def format_value(value: float | None, uncertainty: float | None = None, *, digits: int = 6,
+#: significant figures of a printed number that has no uncertainty (a statistic such as an rms)
+DIGITS = 4
+
+
+def format_value(value: float | None, uncertainty: float | None = None, *, digits: int = DIGITS,
                  interval: tuple[float, float] | None = None) -> str:
     """``value ± uncertainty`` (or ``value +upper/-lower``), rounded to the precision of the uncertainty.
 
@@ -66,10 +80,12 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
         None or a non-finite value prints as a dash.
     uncertainty : float or None
         None, zero or a non-finite uncertainty (a fixed or exact value) prints the value
-        alone, to ``digits`` significant figures (or 5 decimals from 1e5 up, e.g. a
-        Julian date).
+        alone, to ``digits`` significant figures without an exponent from 1e-4 to 1e5
+        (whole numbers beyond ``digits`` figures), or with 5 decimals from 1e5 up (e.g.
+        a Julian date).  An uncertainty below 1e-12 of the value (floating-point noise
+        of an exact input) counts as none: a zero error is never printed.
     digits : int
-        Significant figures of a value without uncertainty.
+        Significant figures of a value without uncertainty (default :data:`DIGITS`).
     interval : (float, float), optional
         Central 68% interval (lower, upper).  When its sides differ by more than
         :data:`ASYMMETRY` of the larger (and ``value`` lies inside it)
@@ -82,6 +98,10 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
     '1.235 ± 0.012'
     >>> format_value(2459001.234567891, None)
     '2459001.23457'
+    >>> format_value(0.706188, None)
+    '0.7062'
+    >>> format_value(12345.6, None)
+    '12346'
     >>> format_value(3.14159265358979, None, digits=11)
     '3.1415926536'
     >>> format_value(0.312, 0.02, interval=(0.301, 0.345))
@@ -94,10 +114,18 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
         if below > 0 and above > 0:
             decimals = _decimals(min(below, above))
             return f"{value:.{decimals}f} +{above:.{decimals}f}/-{below:.{decimals}f}"
-    if uncertainty is None or not math.isfinite(uncertainty) or uncertainty <= 0:
-        return f"{value:.{digits}g}" if abs(value) < 1e5 else f"{value:.5f}"
+    if not has_uncertainty(value, uncertainty):
+        if abs(value) >= 1e5:
+            return f"{value:.5f}"
+        return f"{value:.0f}" if abs(value) >= 10 ** digits else f"{value:.{digits}g}"
     decimals = _decimals(uncertainty)
     return f"{value:.{decimals}f} ± {uncertainty:.{decimals}f}"
+
+
+def has_uncertainty(value: float, uncertainty: float | None) -> bool:
+    """Whether ``uncertainty`` is a usable error of ``value``: finite, positive, above rounding noise."""
+    scale = abs(value) if value is not None and math.isfinite(value) else 0.0
+    return uncertainty is not None and math.isfinite(uncertainty) and uncertainty > 1e-12 * max(scale, 1e-300)
 
 
 def _decimals(uncertainty: float) -> int:
@@ -145,13 +173,16 @@ def _section_lines(block: Mapping[str, Any] | None, title: str) -> list[str]:
             unit = f"{unit} (fixed)".lstrip()
         else:
             text = format_value(q.get("value"), q.get("uncertainty"), interval=q.get("interval_68"))
-        lines.append(f"  {_LABELS.get(name, name):<30s} {text:>28s} {unit}".rstrip())
+            if (name not in _STATISTICS and q.get("value") is not None and q.get("interval_68") is None
+                    and not has_uncertainty(q["value"], q.get("uncertainty"))):
+                unit = f"{unit} (no uncertainty)".lstrip()
+        lines.append(f"  {LABELS.get(name, name):<30s} {text:>28s} {unit}".rstrip())
     budget = block.get("uncertainty_budget")
     if budget:
         lines.append("  Where the uncertainty comes from:")
         for name in _BUDGET_SHOWN:
             if budget.get(name):
-                lines.append(f"    {_LABELS.get(name, name) + ':':<8s} {budget[name]}")
+                lines.append(f"    {LABELS.get(name, name) + ':':<8s} {budget[name]}")
     return lines
 
 
@@ -167,7 +198,7 @@ def _fit_lines(fit: Mapping[str, Any]) -> list[str]:
     if fit.get("priors"):
         lines += ["", "Priors"]
         for name, p in fit["priors"].items():
-            label = f"{_LABELS.get(name, name)} ({name})" if name in _LABELS else name
+            label = f"{LABELS.get(name, name)} ({name})" if name in LABELS else name
             lines.append(f"  {label:<44s} {format_value(p.get('value'), p.get('sigma')):>20s}")
     if fit.get("notes"):
         lines.append("")

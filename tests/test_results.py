@@ -53,7 +53,7 @@ def test_output_dir_rules(tmp_path):
     full = tmp_path / "full"
     full.mkdir()
     (full / "x.txt").write_text("keep me")
-    with pytest.raises(InputError, match="not empty; use --overwrite"):
+    with pytest.raises(InputError, match="not empty; use `overwrite=True`"):
         prepare_output_dir(full)
     assert prepare_output_dir(full, overwrite=True) == full
     assert (full / "x.txt").read_text() == "keep me"

@@ -50,7 +50,7 @@ def validity_warnings(values: Mapping[str, float], uncertainties: Mapping[str, f
     uk = uncertainties.get("radius_ratio")
     if uk is not None and values["radius_ratio"] > 0 and uk / values["radius_ratio"] > 0.1:
         out.append(("info", f"radius ratio poorly constrained ({100 * uk / values['radius_ratio']:.0f}%): partial "
-                   "eclipses; a spectroscopic light ratio would help (--prior light_ratio=VALUE±SIGMA)"))
+                   "eclipses; a spectroscopic light ratio would help, as a prior (`priors['light_ratio']`)"))
     if redchi > 3 * redchi_reference + 1:
         out.append(("poor", f"reduced chi-square {redchi:.2f} is high compared with the out-of-eclipse scatter "
                    f"({redchi_reference:.2f}): the model does not describe the eclipses well"))

@@ -14,6 +14,7 @@ import numpy as np
 
 from ..data import LightCurve
 from ..errors import EclipsekitWarning, FitError, InputError
+from ..summary import format_value
 from .checks import limb_darkening_shift, limb_darkening_warning, validity_warnings
 from .derived import add_derived_samples, add_derived_values, summarise_samples
 from .driver import LeastSquaresSolution, run_least_squares, solve
@@ -264,7 +265,7 @@ def decision_notes(sol: LeastSquaresSolution, fit: EclipseFit) -> list[str]:
         if name.startswith("ld") and name in pm.priors and fit.uncertainties.get(name):
             ratio = fit.uncertainties[name] / pm.priors[name][1]
             verdict = "measured" if ratio < LD_CONSTRAINED else "mostly from its prior"
-            parts.append(f"{name} = {fit.values[name]:.3f} +- {fit.uncertainties[name]:.3f} ({verdict}: "
+            parts.append(f"{name} = {format_value(fit.values[name], fit.uncertainties[name])} ({verdict}: "
                          f"{ratio:.2f} of the prior's width {pm.priors[name][1]:g})")
     if parts:
         notes.append(f"limb darkening ({fit.ld_law} law) fitted with weak priors: " + "; ".join(parts))
@@ -313,7 +314,7 @@ def third_light_check(lc: LightCurve, lc_sol: LightCurveSolution) -> LightCurveS
     if dchi2 > 10.83 and l3 > 3 * sd:
         full = dataclasses.replace(st, free=st.free | {"third_light"}, check_third_light=False)
         adopted = fit_light_curve(lc, start, full)
-        note = (f"third light fitted: the data need it (L3 = {l3:.3f} +- {sd:.3f}, chi-square drop {dchi2:.0f} "
+        note = (f"third light fitted: the data need it (L3 = {format_value(l3, sd)}, chi-square drop {dchi2:.0f} "
                 "when it is freed)")
         return dataclasses.replace(adopted, fit=dataclasses.replace(adopted.fit, notes=adopted.fit.notes + [note]))
     limit = max(0.0, l3 + 1.96 * sd)
@@ -324,6 +325,6 @@ def third_light_check(lc: LightCurve, lc_sol: LightCurveSolution) -> LightCurveS
         moves.append(f"{label} by {100 * slope * limit / fit.values[name]:+.1f}%")
     slope = np.cov(s["inclination"], s["third_light"])[0, 1] / np.var(s["third_light"], ddof=1)
     moves.append(f"i by {slope * limit:+.2f} deg")
-    note = (f"third light held at 0; the data allow up to L3 = {limit:.3f} (95%, L3 = {l3:.3f} +- {sd:.3f} when "
-            f"freed), which would move " + ", ".join(moves) + " (free it with --free third_light)")
+    note = (f"third light held at 0; the data allow up to L3 = {limit:.3f} (95%, L3 = {format_value(l3, sd)} when "
+            f"freed), which would move " + ", ".join(moves) + " (free it with `free=['third_light']`)")
     return dataclasses.replace(lc_sol, fit=dataclasses.replace(fit, notes=fit.notes + [note]))
