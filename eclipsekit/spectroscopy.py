@@ -906,7 +906,11 @@ def _choose_labels(rv: VelocityCurve, ephemeris: Any, options: dict[str, Any], l
         info.append("velocity labels not checked (no t0): rv1 taken as the star eclipsed at primary eclipse")
         return rv, "not checked"
     cols = rv.meta.get("columns") or {}
+    has1 = bool(np.isfinite(rv.rv1).any())
     name1, name2 = cols.get("rv1") or "rv1", cols.get("rv2") or "rv2"
+    # what the file's columns are, as labelled (a one-star file names its one column)
+    labelled = (f"{name1!r} is the star eclipsed at primary eclipse" if has1
+                else f"{name2!r} is the star eclipsed at secondary eclipse")
     chi_given, best_given = _trial_chi2(rv, ephemeris, options)
     chi_swapped, best_swapped = _trial_chi2(rv.swapped(""), ephemeris, options)
     if not np.isfinite(chi_given) and not np.isfinite(chi_swapped):  # the fit itself will say why
@@ -915,17 +919,19 @@ def _choose_labels(rv: VelocityCurve, ephemeris: Any, options: dict[str, Any], l
         def k_text(best: dict[str, float]) -> str:
             return ", ".join(f"{lab} = {best[key]:.3g} km/s" for key, lab in
                              (("k_primary", "K1"), ("k_secondary", "K2")) if key in best)
-        why = (f"velocity columns swapped: {name1!r} belongs to the star eclipsed at secondary eclipse "
-               f"(as labelled, chi-square {chi_given:.4g} with {k_text(best_given)}, the orbit would need "
-               f"omega + 180 deg; exchanged, chi-square {chi_swapped:.4g}); star 1 is now {name2!r}")
+        actual = (f"{name1!r} belongs to the star eclipsed at secondary eclipse" if has1
+                  else f"{name2!r} belongs to the star eclipsed at primary eclipse")
+        why = (f"velocity columns swapped: {actual} (as labelled, chi-square {chi_given:.4g} with "
+               f"{k_text(best_given)}, the orbit would need omega + 180 deg; exchanged, chi-square "
+               f"{chi_swapped:.4g})")
         info.append(why)
         return rv.swapped(why), "swapped"
     if chi_swapped - chi_given > _LABEL_DELTA_CHI2:
-        info.append(f"velocity labels checked: {name1!r} is the star eclipsed at primary eclipse "
-                    f"(chi-square {chi_given:.4g} as labelled, {chi_swapped:.4g} exchanged)")
+        info.append(f"velocity labels checked: {labelled} (chi-square {chi_given:.4g} as labelled, "
+                    f"{chi_swapped:.4g} exchanged)")
         return rv, "as given"
     notes.warn(f"the velocities cannot tell which star is eclipsed at primary eclipse (chi-square {chi_given:.4g} "
-               f"as labelled, {chi_swapped:.4g} exchanged); {name1!r} is taken as star 1")
+               f"as labelled, {chi_swapped:.4g} exchanged); kept as labelled: {labelled}")
     return rv, "ambiguous"
 
 
