@@ -365,6 +365,8 @@ class _RunOptions:
         _check_fit_options(lc, options)
         if velocities is not None and (measured["k_primary"] is not None or measured["k_secondary"] is not None):
             raise InputError("give either a velocity file or --k1/--k2 amplitudes, not both")
+        if options["velocity_labels"] not in ("auto", "given", "swapped"):
+            raise InputError(f"`velocity_labels` must be 'auto', 'given' or 'swapped', got {options['velocity_labels']!r}")
         if options["joint"] and velocities is None:
             raise InputError("a joint fit needs velocities: give --rv (or drop --joint)")
         exposure = _exposure_days(exposure_time, lc)
