@@ -20,7 +20,7 @@ from .errors import EclipsekitError, EclipsekitWarning, FitError, GeometryError,
 _LAZY = {
     # reading data
     "LightCurve": "data", "VelocityCurve": "data", "read_light_curve": "data", "read_velocities": "data",
-    "magnitudes_to_flux": "data", "sample_paths": "data",
+    "magnitudes_to_flux": "data", "sample_paths": "data", "align_velocity_times": "time_systems",
     # the model
     "model_flux": "eclipse", "occulted_fraction": "eclipse", "light_ratio": "eclipse",
     "eclipse_properties": "eclipse",
@@ -37,6 +37,7 @@ _LAZY = {
 __all__ = [
     # reading data
     "LightCurve", "VelocityCurve", "read_light_curve", "read_velocities", "magnitudes_to_flux", "sample_paths",
+    "align_velocity_times",
     # the model
     "model_flux", "occulted_fraction", "light_ratio", "eclipse_properties",
     "solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase", "radial_velocities",

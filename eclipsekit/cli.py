@@ -74,6 +74,40 @@ def _reader_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--time-offset", type=float, metavar="DAYS", help="days to add to the file's times (e.g. 2457000)")
 
 
+def _velocity_reader_options(p: argparse.ArgumentParser, labels: bool = True, coordinates: bool = True) -> None:
+    g = p.add_argument_group("velocity columns and time")
+    g.add_argument("--rv-time-col", metavar="NAME", help="name of the velocity file's time column")
+    g.add_argument("--rv1-col", metavar="NAME", help="name of the primary's velocity column (km/s)")
+    g.add_argument("--rv1-err-col", metavar="NAME", help="name of the primary's velocity error column")
+    g.add_argument("--rv2-col", metavar="NAME", help="name of the secondary's velocity column (km/s)")
+    g.add_argument("--rv2-err-col", metavar="NAME", help="name of the secondary's velocity error column")
+    g.add_argument("--rv-time-system", metavar="SYSTEM",
+                   help="time system of the velocities: BJD_TDB, HJD, JD, MJD or unknown")
+    g.add_argument("--rv-time-offset", type=float, metavar="DAYS",
+                   help="days to add to the velocity file's times (e.g. 2450000)")
+    if labels:
+        g.add_argument("--rv-labels", choices=("auto", "given", "swapped"), default="auto",
+                       help="which velocity column is the star eclipsed at primary eclipse: auto (default: "
+                            "decided from the light curve's ephemeris), given (rv1), swapped (rv2)")
+    if coordinates:
+        g.add_argument("--coordinates", metavar="\"RA DEC\"",
+                       help="the target's position (degrees, or sexagesimal RA in hours): velocity times in "
+                            "another time system than the light curve's are converted (light-travel time)")
+
+
+def _read_rv(args: argparse.Namespace, path: str):
+    """The velocity file, with the --rv-* column and time options; its errors name those options."""
+    from .data import read_velocities
+
+    try:
+        return read_velocities(path, time_col=args.rv_time_col, rv1_col=args.rv1_col, rv1_err_col=args.rv1_err_col,
+                               rv2_col=args.rv2_col, rv2_err_col=args.rv2_err_col, time_system=args.rv_time_system,
+                               time_offset=args.rv_time_offset)
+    except EclipsekitError as exc:
+        exc.option_names = _VELOCITY_OPTION_OF
+        raise
+
+
 def _period_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("period search")
     g.add_argument("--min-period", type=_positive_float, help="shortest trial period (days)")
@@ -121,7 +155,8 @@ _LIST_OPTIONS = {"free": "--free", "fix": "--fix", "prior": "--prior", "ld1": "-
 
 def _dimension_options(p: argparse.ArgumentParser, joint: bool = False) -> None:
     g = p.add_argument_group("spectroscopy and absolute dimensions")
-    g.add_argument("--rv", help="radial-velocity file (columns time, rv1, rv1_err, rv2, rv2_err; km/s)")
+    g.add_argument("--rv", help="radial-velocity file (columns time, rv1, rv1_err and/or rv2, rv2_err; km/s; "
+                                "named with the --rv-* options)")
     g.add_argument("--k1", type=_value_error, metavar="V±E", help="primary's velocity semi-amplitude, km/s")
     g.add_argument("--k2", type=_value_error, metavar="V±E", help="secondary's velocity semi-amplitude, km/s")
     g.add_argument("--teff1", type=_value_error, metavar="T±E", help="primary's effective temperature, K")
@@ -149,18 +184,9 @@ def _read_lc(args: argparse.Namespace):
 
 #: Python names in the velocity reader's messages -> options that set them for --rv FILE (the
 #: light-curve column options do not apply to it)
-_VELOCITY_OPTION_OF: dict[str, str] = {}
-
-
-def _read_rv(path: str):
-    """The velocities of --rv FILE; their errors name no light-curve option."""
-    from .data import read_velocities
-
-    try:
-        return read_velocities(path)
-    except EclipsekitError as exc:
-        exc.option_names = _VELOCITY_OPTION_OF
-        raise
+_VELOCITY_OPTION_OF: dict[str, str] = {
+    "time_col": "--rv-time-col", "rv1_col": "--rv1-col", "rv1_err_col": "--rv1-err-col", "rv2_col": "--rv2-col",
+    "rv2_err_col": "--rv2-err-col", "time_system": "--rv-time-system", "time_offset": "--rv-time-offset"}
 
 
 # ---- eclipse-fit options ------------------------------------------------------------
@@ -279,7 +305,10 @@ _OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--p
               "time_offset": "--time-offset", "k_primary": "--k1", "k_secondary": "--k2",
               "teff_primary": "--teff1", "teff_secondary": "--teff2", "parallax": "--parallax",
               "velocities": "--rv", "rv": "--rv", "joint": "--joint", "out": "--out",
-              "orbit": "--rv", "overwrite": "--overwrite"}
+              "orbit": "--rv", "overwrite": "--overwrite",
+              "rv1_col": "--rv1-col", "rv1_err_col": "--rv1-err-col", "rv2_col": "--rv2-col",
+              "rv2_err_col": "--rv2-err-col", "coordinates": "--coordinates", "labels": "--rv-labels",
+              "velocity_labels": "--rv-labels"}
 
 #: Python values in messages -> what the option takes (`err_col=False` is --err-col none)
 _OPTION_VALUE = {"True": "", "False": "none", "None": "none"}
@@ -326,14 +355,22 @@ def _command_line(argv: Sequence[str] | None) -> str:
 # ---- commands ----------------------------------------------------------------------
 def _cmd_inspect(args: argparse.Namespace) -> int:
     """Read a light-curve or velocity file and print what was kept and rejected."""
-    from .data import _guess_kind, read_velocities
+    from .data import _guess_kind
 
     photometry_options = (args.flux_col, args.err_col, args.mag_col)
-    if any(o is not None for o in photometry_options) or _guess_kind(args.file) == "light curve":
+    velocity_options = (args.rv1_col, args.rv1_err_col, args.rv2_col, args.rv2_err_col, args.rv_time_col,
+                        args.rv_time_system, args.rv_time_offset)
+    if any(o is not None for o in photometry_options):
         data = _read_lc(args)
+    elif any(o is not None for o in velocity_options) or _guess_kind(args.file) == "velocities":
+        # the light-curve time options also apply to a velocity file given to `inspect`
+        for rv_name, lc_name in (("rv_time_col", "time_col"), ("rv_time_system", "time_system"),
+                                 ("rv_time_offset", "time_offset")):
+            if getattr(args, rv_name) is None:
+                setattr(args, rv_name, getattr(args, lc_name))
+        data = _read_rv(args, args.file)
     else:
-        data = read_velocities(args.file, time_col=args.time_col, time_system=args.time_system,
-                               time_offset=args.time_offset)
+        data = _read_lc(args)
     print(json.dumps(data.summary_dict(), indent=2) if args.json else data.summary())
     return 0
 
@@ -396,7 +433,12 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
             if getattr(args, option) is not None:
                 fit_options[option] = getattr(args, option)
         lc = _read_lc(args)
-        rv = _read_rv(args.rv) if getattr(args, "rv", None) is not None else None
+        rv = _read_rv(args, args.rv) if getattr(args, "rv", None) else None
+    coordinates = None
+    if getattr(args, "coordinates", None):
+        from .time_systems import parse_coordinates
+
+        coordinates = parse_coordinates(args.coordinates)
     prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
     exposure = None if getattr(args, "exposure_time", None) is None else args.exposure_time / 86400.0
     analysis = analyse(
@@ -407,7 +449,9 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         min_period=getattr(args, "min_period", None), max_period=getattr(args, "max_period", None),
         period=getattr(args, "period", None), t0=getattr(args, "t0", None), exposure_time=exposure,
         errors=getattr(args, "errors", "auto"), progress=not args.quiet, seed=getattr(args, "seed", None),
-        joint=getattr(args, "joint", False), command=args.command_line, fit_options=fit_options, **choices)
+        joint=getattr(args, "joint", False), coordinates=coordinates,
+        velocity_labels=getattr(args, "rv_labels", "auto"), command=args.command_line, fit_options=fit_options,
+        **choices)
     written = analysis.write(args.out, overwrite=True)
     print(_in_option_terms(analysis.summary(), _option_names(args)))
     print()
@@ -433,13 +477,19 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
     orbit = None
     rv = None
     if args.rv is not None:
-        rv = _read_rv(args.rv)
-        orbit = fit_velocities(rv, light, seed=args.seed)
+        from .errors import FitError
+        from .spectroscopy import orbit_doubts
+
+        rv = _read_rv(args, args.rv)
+        orbit = fit_velocities(rv, light, seed=args.seed, labels=args.rv_labels)
+        doubts = orbit_doubts(orbit)
+        if doubts:
+            raise FitError("; ".join(doubts) + "; masses not computed")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", EclipsekitWarning)
         dims = absolute_dimensions(light, orbit, k_primary=args.k1, k_secondary=args.k2, teff_primary=args.teff1,
                                    teff_secondary=args.teff2, parallax=args.parallax, seed=args.seed)
-    notes = [str(w.message) for w in caught] + [
+    notes = list(getattr(orbit, "notes", []) or []) + [str(w.message) for w in caught] + [
         "result.json keeps no samples: light-curve parameters were drawn as independent Gaussians, so their "
         "correlations are not propagated"]
     content = dimensions_result(light, orbit, dims, notes, command=args.command_line)
@@ -466,6 +516,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("file", help="light-curve or velocity file (CSV, ASCII, ECSV or FITS)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     _reader_options(p)
+    _velocity_reader_options(p, labels=False, coordinates=False)
     _common(p)
     p.set_defaults(func=_cmd_inspect)
 
@@ -492,6 +543,7 @@ def build_parser() -> argparse.ArgumentParser:
         _fit_options(p)
         if with_dimensions:
             _dimension_options(p, joint=True)
+            _velocity_reader_options(p)
         _output_options(p, "eclipsekit-results")
         _common(p)
         p.set_defaults(func=_cmd_analyse)
@@ -500,6 +552,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("dimensions", help="masses, radii, gravities (and luminosities) from a result.json")
     p.add_argument("result", help="result.json written by `eclipsekit fit` or `run`")
     _dimension_options(p)
+    _velocity_reader_options(p, coordinates=False)
     p.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
     g = p.add_argument_group("output")
     g.add_argument("--out", metavar="DIR", help="also write result files into DIR")

@@ -252,8 +252,8 @@ class VelocityCurve(_Series):
             if np.any(~np.isfinite(err)) or np.any(err <= 0):
                 raise InputError(f"`{star}_err` must be positive and finite wherever `{star}` is given")
             arrays[star + "_err"] = np.where(has, arrays[star + "_err"], np.nan)
-        if not np.any(np.isfinite(arrays["rv1"])):
-            raise InputError("no primary velocities (`rv1`) given")
+        if not (np.any(np.isfinite(arrays["rv1"])) or np.any(np.isfinite(arrays["rv2"]))):
+            raise InputError("no velocities given: `rv1` and `rv2` are both empty")
         order = np.argsort(t, kind="stable")
         row = np.arange(n) if self.row is None else np.asarray(self.row, dtype=int)
         object.__setattr__(self, "time", t[order])
@@ -264,8 +264,23 @@ class VelocityCurve(_Series):
 
     @property
     def double_lined(self) -> bool:
-        """True when the secondary's velocities are given at some epoch."""
-        return bool(np.any(np.isfinite(self.rv2)))
+        """True when both stars' velocities are given (each at some epoch)."""
+        return bool(np.any(np.isfinite(self.rv1)) and np.any(np.isfinite(self.rv2)))
+
+    def swapped(self, why: str) -> "VelocityCurve":
+        """A copy with the two stars' columns exchanged (rv1 <-> rv2), ``why`` added to the notes.
+
+        ``meta["labels_swapped"]`` records it; ``meta["columns"]`` names the file's columns
+        under their new roles.
+        """
+        meta = dict(self.meta)
+        cols = dict(meta.get("columns") or {})
+        if cols:
+            cols = {**cols, "rv1": cols.get("rv2"), "rv1_err": cols.get("rv2_err"),
+                    "rv2": cols.get("rv1"), "rv2_err": cols.get("rv1_err")}
+        meta.update(columns=cols, labels_swapped=not meta.get("labels_swapped", False),
+                    notes=[*(meta.get("notes") or []), why])
+        return replace(self, rv1=self.rv2, rv1_err=self.rv2_err, rv2=self.rv1, rv2_err=self.rv1_err, meta=meta)
 
     def summary_dict(self) -> dict[str, Any]:
         """What was read and kept, as a JSON-serialisable dict (see :meth:`summary`)."""
@@ -298,8 +313,9 @@ class VelocityCurve(_Series):
         lines += _describe_columns_and_time(d)
         lines.append(f"  epochs kept: {d['n_epochs']}" + (f" of {d['n_rows']} rows" if d["n_rows"] is not None else ""))
         lines.append(f"  primary (rv1): {d['n_primary']} velocities"
-                     + (f", median error {d['median_rv1_err']:.3g} km/s" if d["median_rv1_err"] is not None else ""))
-        if d["double_lined"]:
+                     + (f", median error {d['median_rv1_err']:.3g} km/s" if d["median_rv1_err"] is not None else "")
+                     if d["n_primary"] else "  primary (rv1): none (single-lined: the secondary's velocities only)")
+        if d["n_secondary"]:
             lines.append(f"  secondary (rv2): {d['n_secondary']} velocities"
                          + (f", median error {d['median_rv2_err']:.3g} km/s" if d["median_rv2_err"] is not None else ""))
         else:
@@ -550,7 +566,8 @@ def _column(raw: _RawTable, override: str | None, option: str, found: str | None
 
 
 def _missing_column(raw: _RawTable, what: str, option: str, extra: str = "") -> InputError:
-    # the command line shows its own option for `option` (eclipsekit.cli._in_option_terms)
+    # the command line shows its own option for `option` (eclipsekit.cli._in_option_terms; for a velocity
+    # file, the --rv-* options)
     return InputError(f"{raw.name}: no {what} column found (columns found: {_list_columns(raw.table.colnames)}); "
                       f"name it with `{option}`{extra}")
 
@@ -1033,18 +1050,21 @@ def _passband(raw: _RawTable, value_name: str) -> str | None:
 
 def _velocity_columns(raw: _RawTable, *, time_col, rv1_col, rv1_err_col, rv2_col,
                       rv2_err_col) -> dict[str, str | None]:
+    """The columns of a velocity file; one star's velocities may be missing (a single-lined file)."""
     names = raw.table.colnames
     time = _column(raw, time_col, "time_col", _columns.find_time_column(names))
     if time is None:
         raise _missing_column(raw, "time", "time_col")
-    rv1 = _column(raw, rv1_col, "rv1_col", _columns.find_column(names, _columns.velocity_candidates(1)))
-    if rv1 is None:
-        raise _missing_column(raw, "primary velocity (rv1)", "rv1_col")
-    rv2 = _column(raw, rv2_col, "rv2_col", _columns.find_column(
-        [n for n in names if n != rv1], _columns.velocity_candidates(2)))
+    # the secondary's own names first, so that a file with only rv2 columns keeps them as star 2
+    rv2 = _column(raw, rv2_col, "rv2_col", _columns.find_column(names, _columns.velocity_candidates(2)))
+    rv1 = _column(raw, rv1_col, "rv1_col", _columns.find_column(
+        [n for n in names if n != rv2], _columns.velocity_candidates(1)))
+    if rv1 is None and rv2 is None:
+        raise _missing_column(raw, "velocity (rv1 or rv2)", "rv1_col",
+                              "; or `rv2_col` for the secondary's velocities")
     used = {time, rv1, rv2}
     # generic names ("err", "sigma") only for a single-lined file, where they are unambiguous
-    generic_ok = rv2 is None
+    generic_ok = rv1 is None or rv2 is None
     errs = {}
     for star, col, override in ((1, rv1, rv1_err_col), (2, rv2, rv2_err_col)):
         if col is None:
@@ -1079,7 +1099,9 @@ def read_velocities(path: str | PathLike, *, time_col: str | None = None, rv1_co
     Returns
     -------
     VelocityCurve
-        Sorted by time.  A star not measured at an epoch (empty cell or NaN) is NaN
+        Sorted by time.  A file may hold one star's velocities only: ``rv1`` columns
+        (a single-lined binary) or ``rv2`` columns (only the secondary's lines
+        measured).  A star not measured at an epoch (empty cell or NaN) is NaN
         there; an epoch is rejected (``"non-finite"``) only when its time or both
         velocities are missing.  Repeated times are kept.  Columns with an
         astropy-readable unit (ECSV, FITS) are converted to km/s.
@@ -1089,7 +1111,7 @@ def read_velocities(path: str | PathLike, *, time_col: str | None = None, rv1_co
     InputError
         As for :func:`read_light_curve`; also a missing error column (velocities
         need errors), a velocity without a positive error, or fewer than
-        :data:`MIN_VELOCITIES` primary velocities.
+        :data:`MIN_VELOCITIES` velocities of the star measured (the primary's when both are).
     """
     system_arg = _validate_time_system(time_system)
     offset_arg = _validate_time_offset(time_offset)
@@ -1102,7 +1124,9 @@ def read_velocities(path: str | PathLike, *, time_col: str | None = None, rv1_co
     values = {k: (_scale_to(raw, cols[k], _numeric(raw, cols[k]), kms) if cols[k] else np.full(time.size, np.nan))
               for k in ("rv1", "rv1_err", "rv2", "rv2_err")}
     _check_all_nan(raw, cols["time"], time)
-    _check_all_nan(raw, cols["rv1"], values["rv1"])
+    for star in ("rv1", "rv2"):
+        if cols[star] and not (cols["rv1"] and cols["rv2"]):  # a file's only velocity column
+            _check_all_nan(raw, cols[star], values[star])
     keep = np.ones(time.size, bool)
     rejected: dict[str, np.ndarray] = {}
     has1, has2 = np.isfinite(values["rv1"]), np.isfinite(values["rv2"])
@@ -1111,7 +1135,10 @@ def read_velocities(path: str | PathLike, *, time_col: str | None = None, rv1_co
         if cols[star]:
             _check_velocity_errors(raw, cols[star + "_err"], values[star + "_err"],
                                    keep & np.isfinite(values[star]))
-    _check_enough(raw, int((keep & has1).sum()), rejected, MIN_VELOCITIES, "primary velocities")
+    if (keep & has1).any() or not cols["rv2"]:
+        _check_enough(raw, int((keep & has1).sum()), rejected, MIN_VELOCITIES, "primary velocities")
+    else:  # only the secondary's velocities
+        _check_enough(raw, int((keep & has2).sum()), rejected, MIN_VELOCITIES, "secondary velocities")
     rows = np.flatnonzero(keep)
     notes = ["input was not sorted by time; sorted"] if np.any(np.diff(time[rows]) < 0) else []
     meta = {"source": str(raw.path), "format": raw.format, "time_system": system, "time_offset": offset,
@@ -1132,7 +1159,7 @@ def _guess_kind(path: str | PathLike) -> str:
     """``"velocities"`` when the file has a velocity column and no flux/magnitude column, else ``"light curve"``."""
     raw = _load_table(path)
     names = raw.table.colnames
-    has_rv = _columns.find_column(names, _columns.velocity_candidates(1)) is not None
+    has_rv = _columns.find_column(names, _columns.velocity_candidates(1) + _columns.velocity_candidates(2)) is not None
     has_phot = _columns.find_column(names, _columns.FLUX_NAMES + _columns.MAG_NAMES) is not None
     return "velocities" if has_rv and not has_phot else "light curve"
 

@@ -235,6 +235,8 @@ def analyse(
     progress: bool = True,
     seed: int | None = None,
     joint: bool = False,
+    coordinates: Any = None,
+    velocity_labels: str = "auto",
     command: str | None = None,
     fit_options: dict[str, Any] | None = None,
 ) -> Analysis:
@@ -277,6 +279,16 @@ def analyse(
     joint : bool
         Fit the light curve and the velocities together (shared period, epoch, e cos ω
         and e sin ω; covariance uncertainties only) instead of one after the other.
+    coordinates : astropy.coordinates.SkyCoord or str, optional
+        The target's sky position ("RA DEC" in degrees or sexagesimal).  When the light
+        curve and the velocities are in different time systems (e.g. HJD and BJD_TDB),
+        the velocity times are converted with astropy's light-travel-time corrections;
+        without coordinates a warning names both systems (see
+        :func:`~eclipsekit.time_systems.align_velocity_times`).
+    velocity_labels : {'auto', 'given', 'swapped'}
+        Which velocity column is star 1 (the star eclipsed at primary eclipse); "auto"
+        decides from the light curve's ephemeris (``labels`` of
+        :func:`~eclipsekit.fit_velocities`).
     command : str, optional
         The command line, recorded in ``result.json``.
     fit_options : dict, optional
@@ -286,7 +298,9 @@ def analyse(
     -------
     Analysis
         ``status`` is ``"no_eclipse_found"`` when the period search finds nothing
-        significant (the later steps are then skipped), else the eclipse fit's status.
+        significant (the later steps are then skipped), ``"no_orbit_found"`` when a
+        velocity semi-amplitude is consistent with zero (no masses are computed), else the
+        eclipse fit's status ("caution" also when a mass is below 0.01 M_sun).
 
     Raises
     ------
@@ -298,6 +312,10 @@ def analyse(
         warnings.simplefilter("always", EclipsekitWarning)
         with _Timer(timings, "read"):
             lc, velocities = _read_inputs(lc, velocities)
+            if velocities is not None:
+                from .time_systems import align_velocity_times
+
+                velocities = align_velocity_times(lc, velocities, coordinates)
         measured = {"k_primary": k_primary, "k_secondary": k_secondary, "teff_primary": teff_primary,
                     "teff_secondary": teff_secondary, "parallax": parallax}
         analysis = Analysis(lc=lc, rv=velocities, timings=timings, command=command,
@@ -306,7 +324,7 @@ def analyse(
             lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
             exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free),
             fixed=dict(fixed or {}), priors=dict(priors or {}), progress=progress, seed=seed, joint=joint,
-            fit_options=dict(fit_options or {}))
+            velocity_labels=velocity_labels, fit_options=dict(fit_options or {}))
         start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
             _fit_light_curve(analysis, start, options)
@@ -336,6 +354,7 @@ class _RunOptions:
     progress: bool
     seed: int | None
     joint: bool
+    velocity_labels: str
     fit_options: dict[str, Any]
 
     @classmethod
@@ -346,6 +365,8 @@ class _RunOptions:
         _check_fit_options(lc, options)
         if velocities is not None and (measured["k_primary"] is not None or measured["k_secondary"] is not None):
             raise InputError("give either `velocities` or `k_primary`/`k_secondary` amplitudes, not both")
+        if options["velocity_labels"] not in ("auto", "given", "swapped"):
+            raise InputError(f"`velocity_labels` must be 'auto', 'given' or 'swapped', got {options['velocity_labels']!r}")
         if options["joint"] and velocities is None:
             raise InputError("a joint fit needs velocities: give `velocities` (or drop `joint=True`)")
         exposure = _exposure_days(exposure_time, lc)
@@ -425,14 +446,57 @@ def _fit_orbit_and_dimensions(analysis: Analysis, options: _RunOptions) -> None:
         analysis.orbit = analysis.eclipse_fit.orbit
     elif analysis.rv is not None:
         with _Timer(analysis.timings, "velocity fit"):
-            analysis.orbit = fit_velocities(analysis.rv, analysis.eclipse_fit, seed=options.seed)
+            analysis.orbit = fit_velocities(analysis.rv, analysis.eclipse_fit, seed=options.seed,
+                                            labels=options.velocity_labels)
+        analysis.rv = analysis.orbit.rv  # relabelled when the columns were swapped
     if analysis.orbit is None and options.measured["k_primary"] is None:
-        stop = results.NO_VELOCITIES
-        analysis.message = f"{analysis.message}; {stop}" if analysis.message else stop
+        _add_message(analysis, results.NO_VELOCITIES)
+        return
+    if analysis.orbit is not None and not _orbit_gives_masses(analysis):
         return
     with _Timer(analysis.timings, "absolute dimensions"):
         analysis.dimensions = absolute_dimensions(analysis.eclipse_fit, analysis.orbit, **options.measured,
                                                   seed=options.seed)
+    _check_masses(analysis)
+
+
+#: Below this mass (M_sun, about ten Jupiter masses) a star whose lines were measured is implausible:
+#: the K's, the period or the labels are wrong (the deuterium-burning limit is ~0.012 M_sun; from memory)
+MIN_PLAUSIBLE_MASS = 0.01
+
+
+def _add_message(analysis: Analysis, text: str) -> None:
+    analysis.message = f"{analysis.message}; {text}" if analysis.message else text
+
+
+def _orbit_gives_masses(analysis: Analysis) -> bool:
+    """False (with status and message) when the orbit shows no motion or has one star only."""
+    from .spectroscopy import orbit_doubts
+
+    doubts = orbit_doubts(analysis.orbit)
+    if doubts:
+        analysis.status = "no_orbit_found"
+        _add_message(analysis, "; ".join(doubts) + "; masses not computed")
+        return False
+    values = analysis.orbit.values
+    if not (np.isfinite(values.get("k_primary", np.nan)) and np.isfinite(values.get("k_secondary", np.nan))):
+        star = "secondary" if np.isfinite(values.get("k_primary", np.nan)) else "primary"
+        _add_message(analysis, f"no velocities of the {star}: the orbit is fitted, masses need both stars' "
+                               "velocities (or --k1/--k2)")
+        return False
+    return True
+
+
+def _check_masses(analysis: Analysis) -> None:
+    """An absurdly small mass is never "ok": the status becomes "caution" with the reason."""
+    values = getattr(analysis.dimensions, "values", {}) or {}
+    small = [f"M{i} = {values[key]:.3g} M_sun" for i, key in ((1, "mass_primary"), (2, "mass_secondary"))
+             if np.isfinite(values.get(key, np.nan)) and values[key] < MIN_PLAUSIBLE_MASS]
+    if small:
+        if analysis.status == "ok":
+            analysis.status = "caution"
+        _add_message(analysis, f"{', '.join(small)} is below {MIN_PLAUSIBLE_MASS} M_sun, implausible for a star "
+                               "whose lines were measured: check the velocities' labels, units and time system")
 
 
 def write_dimension_files(out: str | os.PathLike, content: dict[str, Any], text: str, *, orbit: Any = None,

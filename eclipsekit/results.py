@@ -205,6 +205,9 @@ def _input_section(analysis: Any) -> dict[str, Any]:
             "n_secondary": int(np.isfinite(rv.rv2).sum()),
             "n_rejected": {k: int(v.size) for k, v in rv.rejected.items()},
             "time_system": rv.meta.get("time_system", "unknown"),
+            "time_converted_from": rv.meta.get("time_converted_from"),
+            "labels": getattr(analysis.orbit, "labels", None),
+            "noise_model": getattr(analysis.orbit, "noise_model", None),
         }
     for name, given in (analysis.user_inputs or {}).items():
         section[name] = given
@@ -236,7 +239,7 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
         "message": fit.message,
         "status": getattr(fit, "status", "ok"),
         "status_reasons": list(getattr(fit, "status_reasons", []) or []),
-        "notes": list(getattr(fit, "notes", []) or []),
+        "notes": list(getattr(fit, "notes", []) or []) + _velocity_notes(analysis),
     })
     mcmc = fit.diagnostics.get("mcmc")
     if mcmc:
@@ -245,6 +248,13 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
     if analysis.orbit is not None:
         section["velocity_fit_reduced_chi_square"] = finite_or_none(getattr(analysis.orbit, "redchi", None))
     return section
+
+
+def _velocity_notes(analysis: Any) -> list[str]:
+    """What the velocity step decided (labels, noise model, time conversion): notes, not warnings."""
+    rv_meta = getattr(analysis.rv, "meta", None) or {}
+    converted = [n for n in rv_meta.get("notes") or [] if n.startswith("velocity times converted")]
+    return converted + list(getattr(analysis.orbit, "notes", []) or [])
 
 
 def _priors_used(fit: Any) -> dict[str, tuple[float, float]]:

@@ -17,6 +17,7 @@ positive velocity is receding::
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -31,11 +32,15 @@ from .data import VelocityCurve
 from .dimensions import mass_function as _mass_function
 from .dimensions import minimum_masses as _minimum_masses
 from .dimensions import projected_semi_major_axis as _asini
-from .errors import FitError, InputError
+from .errors import EclipsekitWarning, FitError, InputError
 from .summary import format_value
 
-__all__ = ["OrbitFit", "fit_velocities"]
+__all__ = ["OrbitFit", "fit_velocities", "orbit_doubts"]
 
+_LABEL_CHOICES = ("auto", "given", "swapped")
+_LABEL_DELTA_CHI2 = 9.0  # 3 sigma for one binary choice between models with equal parameters (common practice)
+_TRIAL_NFEV = 400       # function evaluations of each trial fit of the labels
+_JITTER_FACTOR = 2.0     # scatter over quoted errors above which a jitter term is fitted (by default)
 _FIXED_DIGITS = 11     # significant figures of a value shown without uncertainty (e.g. a fixed period)
 _E_MAX = 0.95          # e cos w, e sin w are boxed to +-0.95 and e is capped there in the model
 _UNITS = {"k_primary": "km / s", "k_secondary": "km / s", "gamma": "km / s", "gamma_offset": "km / s",
@@ -76,10 +81,23 @@ class OrbitFit:
         Chi-square with the quoted errors (and fitted jitter) and its reduced value.
     n_free, n_data : int
     double_lined, jitter, separate_gamma : bool
+        ``double_lined``: both stars measured.  ``jitter``: a jitter term per star was
+        fitted (asked for, or chosen because the scatter exceeded twice the errors).
     success : bool
     message : str
     warnings : list of str
     lmfit_result : lmfit.minimizer.MinimizerResult
+    inclination : float or None
+        The light curve's inclination used for exact mid-eclipse times.
+    labels : {'as given', 'swapped', 'ambiguous', 'not checked'}
+        Which velocity column was taken as star 1 (the star eclipsed at primary
+        eclipse): the file's ``rv1`` ("as given", checked), the file's ``rv2``
+        ("swapped"; ``rv`` then holds the exchanged columns), or the file's ``rv1``
+        because the data could not tell ("ambiguous") or no t0 was known ("not checked").
+    noise_model : {'quoted errors', 'scaled errors', 'jitter'}
+        How the velocity errors were treated.
+    notes : list of str
+        What was decided and why (labels, noise model): information, not warnings.
     """
 
     values: dict[str, float]
@@ -106,21 +124,33 @@ class OrbitFit:
     warnings: list[str] = field(default_factory=list)
     lmfit_result: Any = field(default=None, repr=False)
     inclination: float | None = None
+    labels: str = "as given"
+    noise_model: str = "quoted errors"
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def no_orbit_reasons(self) -> list[str]:
+        """Why the velocities show no orbit (a semi-amplitude consistent with zero); empty when they do."""
+        return orbit_doubts(self)
 
     def model(self, time: Any) -> tuple[np.ndarray, np.ndarray | None]:
         """Model velocities (km/s) at ``time`` (days or Quantity): ``(rv1, rv2)``; rv2 None if single-lined."""
         t = np.asarray(time.to_value(u.day) if isinstance(time, u.Quantity) else time, float)
         v = self.values
-        k2 = v["k_secondary"] if self.double_lined else None
-        rv1, rv2 = _orbit.radial_velocities(t, period=v["period"], t0=v["t0"], k_primary=v["k_primary"],
+        k1 = v["k_primary"] if np.isfinite(v["k_primary"]) else 0.0
+        k2 = v["k_secondary"] if np.isfinite(v["k_secondary"]) else None
+        rv1, rv2 = _orbit.radial_velocities(t, period=v["period"], t0=v["t0"], k_primary=k1,
                                             k_secondary=k2, gamma=v["gamma"], ecosw=v["ecosw"],
                                             esinw=v["esinw"], **_incl_kw(self.inclination))
+        if not np.isfinite(v["k_primary"]):  # the secondary's velocities only
+            rv1 = np.full(np.shape(rv1), np.nan)
         if rv2 is not None:
             rv2 = rv2 + v["gamma_offset"]
         return rv1, rv2
 
     def summary(self) -> str:
-        kind = "double-lined" if self.double_lined else "single-lined"
+        kind = ("double-lined" if self.double_lined else
+                "single-lined" if np.isfinite(self.values["k_primary"]) else "secondary's velocities only")
         lines = [f"Spectroscopic orbit ({kind}; {self.n_data} velocities, {self.n_free} free parameters, "
                  f"reduced chi-square {self.redchi:.3f})"]
         for k, val in self.values.items():
@@ -131,11 +161,10 @@ class OrbitFit:
             # values without uncertainty (a fixed ephemeris) keep the digits they were given with
             text = format_value(val, err, digits=_FIXED_DIGITS)
             lines.append(f"  {k:<22s} {text:>28s} {self.units.get(k, ''):<7s} {status}".rstrip())
-        lines.append(f"  rms primary {format_value(self.rms_primary)} km/s"
-                     + (f", secondary {format_value(self.rms_secondary)} km/s" if self.double_lined else ""))
-        if not self.jitter and (self.error_scale_primary > 1 or self.error_scale_secondary > 1):
-            lines.append(f"  velocity errors scaled by {format_value(self.error_scale_primary)} (primary)"
-                         + (f", {format_value(self.error_scale_secondary)} (secondary)" if self.double_lined else ""))
+        rms = [f"{star} {format_value(x)} km/s" for star, x in (("primary", self.rms_primary),
+                                                                 ("secondary", self.rms_secondary)) if np.isfinite(x)]
+        lines.append("  rms " + ", ".join(rms))
+        lines += [f"  note: {n}" for n in self.notes]
         if not self.success:
             lines.append(f"  FIT FAILED: {self.message}")
         lines += [f"  warning: {w}" for w in self.warnings]
@@ -200,7 +229,7 @@ def _design_start(time, rv1, w1, rv2, w2, period, t0, ecosw, esinw, separate_gam
     g = np.asarray(g, float)
     rows, rhs = [], []
     m1, m2 = np.isfinite(rv1), np.isfinite(rv2)
-    n1, n2 = m1.sum(), m2.sum()
+    n1, n2 = int(m1.sum()), int(m2.sum())
     a1 = np.zeros((n1, 4))
     a1[:, 0], a1[:, 1] = 1.0, g[m1]
     rows.append(a1 * w1[m1, None])
@@ -213,7 +242,7 @@ def _design_start(time, rv1, w1, rv2, w2, period, t0, ecosw, esinw, separate_gam
         rhs.append(rv2[m2] * w2[m2])
     a = np.vstack(rows)
     b = np.concatenate(rhs)
-    cols = [0, 1] + ([2] if n2 else []) + ([3] if (n2 and separate_gamma) else [])
+    cols = [0] + ([1] if n1 else []) + ([2] if n2 else []) + ([3] if (n1 and n2 and separate_gamma) else [])
     coef = np.zeros(4)
     sol, *_ = np.linalg.lstsq(a[:, cols], b, rcond=None)
     coef[cols] = sol
@@ -244,8 +273,9 @@ def fit_velocities(
     ecosw: Any = None,
     esinw: Any = None,
     fit_eccentricity: bool | None = None,
-    jitter: bool = False,
+    jitter: bool | None = None,
     separate_gamma: bool = False,
+    labels: str = "auto",
     n_samples: int = 4000,
     seed: int | np.random.Generator | None = None,
 ) -> OrbitFit:
@@ -276,10 +306,19 @@ def fit_velocities(
         light curve constrains e cos w well, the velocities e sin w); fitted freely
         when unknown.  Fixed (at 0 if unknown) with fewer than 8 primary velocities.
         True: fitted (with priors when uncertainties are known).  False: fixed.
-    jitter : bool
+    jitter : bool, optional
         Fit an extra velocity scatter per star, added in quadrature to the errors.
+        None (default): fitted when a star's scatter exceeds twice its quoted errors,
+        else the errors are scaled up when the scatter exceeds them (never down).
+        True: always fitted.  False: never (errors scaled instead).
     separate_gamma : bool
         Fit a separate systemic-velocity offset for star 2 (e.g. different templates).
+    labels : {'auto', 'given', 'swapped'}
+        Which column belongs to star 1, the star eclipsed at primary eclipse.  "auto"
+        (default): the orbit is fitted with the columns as labelled and exchanged, and
+        the assignment that fits better by a chi-square margin of 9 is adopted, with a
+        note (``OrbitFit.labels``, ``OrbitFit.notes``); needs t0.  "given": as
+        labelled.  "swapped": ``rv2`` is star 1.
     n_samples : int
         Number of samples drawn from the covariance.
     seed : int or Generator, optional
@@ -315,6 +354,12 @@ def fit_velocities(
     (J^T J)^-1 at the best-fit variances; the jitter's variance is the inverse of its
     Fisher information 2 s^2 sum 1 / (sigma_i^2 + s^2)^2 (zero cross terms).
 
+    Velocity labels: exchanging the stars is the same orbit with omega + 180 deg, whose
+    conjunction at t0 is the secondary eclipse.  With t0 (and e cos w, e sin w) from the
+    light curve, the wrong assignment therefore fits worse (with circular orbits it
+    needs K < 0 and ends at K = 0).  A velocity file with one star only is compared in
+    the same way (as star 1 or as star 2).
+
     Samples are drawn from the multivariate normal of the free parameters; derived
     quantities (e, omega, mass ratio, mass function, M sin^3 i) are computed per sample.
 
@@ -323,16 +368,19 @@ def fit_velocities(
     .. [1] Hilditch, R. W. 2001, An Introduction to Close Binary Stars (CUP), ch. 2.
     .. [2] Lucy, L. B. & Sweeney, M. A. 1971, AJ 76, 544 (small eccentricities are biased).
     """
-    data = _Velocities.from_curve(rv)
+    if labels not in _LABEL_CHOICES:
+        raise InputError(f"`labels` must be one of {', '.join(map(repr, _LABEL_CHOICES))}, got {labels!r}")
+    _Velocities.from_curve(rv)  # checks `rv`
     rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
     n_samples = int(n_samples)
     notes = _notes.Notes()
-    setup = _OrbitSetup.check(data, ephemeris, period=period, t0=t0, fit_ephemeris=fit_ephemeris, ecosw=ecosw,
-                              esinw=esinw, fit_eccentricity=fit_eccentricity, jitter=jitter,
-                              separate_gamma=separate_gamma, notes=notes)
-    problem = _VelocityProblem(data, setup, _priors(setup, notes))
-    params = _parameters(data, setup, *_start_values(data, setup))
-    result, jitter_result = problem.fit(params)
+    info: list[str] = []
+    options = {"period": period, "t0": t0, "fit_ephemeris": fit_ephemeris, "ecosw": ecosw, "esinw": esinw,
+               "fit_eccentricity": fit_eccentricity, "separate_gamma": separate_gamma}
+    rv, label_state = _choose_labels(rv, ephemeris, options, labels, info, notes)
+    data = _Velocities.from_curve(rv)
+    problem, result, jitter_result, noise_model = _fit_noise_model(data, ephemeris, options, jitter, info, notes)
+    setup, params = problem.setup, result.params
     pv = result.params.valuesdict()
     if not result.success:
         notes.warn(f"the velocity fit did not converge: {result.message}")
@@ -354,13 +402,41 @@ def fit_velocities(
     _quality_notes(problem, pv, notes)
     free = [("t0" if n == "t0_offset" else n) for n in result.var_names]
     if setup.jitter:
-        free += [n for n in ("jitter_primary", "jitter_secondary") if n in params]
-    return OrbitFit(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
-                    samples=samples, free=free, rv=rv, **statistics, error_scale_primary=problem.scale["primary"],
-                    error_scale_secondary=problem.scale["secondary"], n_free=setup.n_free,
-                    n_data=data.n1 + data.n2, double_lined=data.double, jitter=setup.jitter,
-                    separate_gamma=setup.separate_gamma, success=bool(result.success), message=str(result.message),
-                    warnings=notes.messages, lmfit_result=result, inclination=setup.inclination)
+        free += [n for n in ("jitter_primary", "jitter_secondary") if jitter_result is not None
+                 and n in jitter_result.params]
+    fit = OrbitFit(values=values, uncertainties=uncert, units={k: _UNITS[k] for k in values},
+                   samples=samples, free=free, rv=rv, **statistics, error_scale_primary=problem.scale["primary"],
+                   error_scale_secondary=problem.scale["secondary"], n_free=setup.n_free,
+                   n_data=data.n1 + data.n2, double_lined=data.double, jitter=setup.jitter,
+                   separate_gamma=setup.separate_gamma, success=bool(result.success), message=str(result.message),
+                   warnings=notes.messages, lmfit_result=result, inclination=setup.inclination,
+                   labels=label_state, noise_model=noise_model, notes=info)
+    for reason in fit.no_orbit_reasons:
+        notes.warn(reason)
+    return fit
+
+
+def orbit_doubts(orbit: Any) -> list[str]:
+    """Reasons a fitted orbit shows no orbital motion: a semi-amplitude consistent with zero.
+
+    Works on any result with ``values`` and ``uncertainties`` holding ``k_primary``,
+    ``k_secondary`` (an :class:`OrbitFit`, or the orbit of a joint fit).  A K within
+    3 sigma of zero (common practice for a detection), or exactly zero, is no measurement:
+    masses from it would be meaningless.
+    """
+    vals = getattr(orbit, "values", None) or {}
+    errs = getattr(orbit, "uncertainties", None) or {}
+    out = []
+    for key, label, star in (("k_primary", "K1", "primary"), ("k_secondary", "K2", "secondary")):
+        k = vals.get(key)
+        if k is None or not np.isfinite(k):
+            continue
+        err = errs.get(key)
+        if k <= 1e-9 * max(1.0, abs(vals.get("gamma", 0.0))) or (err is not None and k < 3 * err):
+            shown = format_value(k, err) if err else f"{k:.3g}"
+            out.append(f"{label} = {shown} km/s is consistent with zero: the {star}'s velocities show no orbit "
+                       f"at the light curve's ephemeris (check the period, t0 and the velocities' time system)")
+    return out
 
 
 # --- the steps of fit_velocities() -------------------------------------------------------
@@ -377,7 +453,24 @@ class _Velocities:
     m2: np.ndarray
     n1: int
     n2: int
-    double: bool
+    double: bool          # both stars measured
+
+    @property
+    def has1(self) -> bool:
+        return self.n1 > 0
+
+    @property
+    def has2(self) -> bool:
+        return self.n2 > 0
+
+    @property
+    def n_main(self) -> int:
+        """Velocities of the star that sets the orbit's shape: the primary's, or the secondary's when alone."""
+        return self.n1 or self.n2
+
+    @property
+    def main_mask(self) -> np.ndarray:
+        return self.m1 if self.has1 else self.m2
 
     @classmethod
     def from_curve(cls, rv: Any) -> _Velocities:
@@ -386,10 +479,10 @@ class _Velocities:
         rv1, rv2 = np.asarray(rv.rv1, float), np.asarray(rv.rv2, float)
         m1, m2 = np.isfinite(rv1), np.isfinite(rv2)
         n1, n2 = int(m1.sum()), int(m2.sum())
-        if n1 == 0:
-            raise InputError("`rv` has no primary velocities (rv1)")
+        if n1 == 0 and n2 == 0:
+            raise InputError("`rv` has no velocities (rv1 or rv2)")
         return cls(time=np.asarray(rv.time, float), rv1=rv1, e1=np.asarray(rv.rv1_err, float), rv2=rv2,
-                   e2=np.asarray(rv.rv2_err, float), m1=m1, m2=m2, n1=n1, n2=n2, double=n2 > 0)
+                   e2=np.asarray(rv.rv2_err, float), m1=m1, m2=m2, n1=n1, n2=n2, double=n1 > 0 and n2 > 0)
 
 
 @dataclass(frozen=True)
@@ -446,14 +539,16 @@ class _OrbitSetup:
         if fit_eccentricity is None:
             # fixed where the light curve fixed it; fitted (with its priors) where it measured it
             measured_e = ec_err is not None or es_err is not None
-            fit_eccentricity = (not known_e or measured_e) and data.n1 >= 8
-            if not known_e and data.n1 < 8:
-                notes.warn(f"only {data.n1} primary velocities: the orbit is assumed circular (pass "
-                           f"fit_eccentricity=True to fit e)")
+            fit_eccentricity = (not known_e or measured_e) and data.n_main >= 8
+            if not known_e and data.n_main < 8:
+                notes.warn(f"only {data.n_main} velocities of the {'primary' if data.has1 else 'secondary'}: "
+                           f"the orbit is assumed circular (pass fit_eccentricity=True to fit e)")
         fit_eccentricity, fit_ephemeris, jitter = bool(fit_eccentricity), bool(fit_ephemeris), bool(jitter)
         fit_t0 = fit_ephemeris or t_val is None
         if t_val is None:
-            t_val = _circular_t0(data.time, data.rv1, 1 / data.e1, p_val)
+            # star 2 moves opposite to star 1: its negated velocities have star 1's phase
+            t_val = (_circular_t0(data.time, data.rv1, 1 / data.e1, p_val) if data.has1
+                     else _circular_t0(data.time, -data.rv2, 1 / data.e2, p_val))
             notes.warn("no t0 given: the time of primary eclipse is fitted from the velocities alone")
 
         n_free = (2 if not data.double else 3) + int(separate_gamma) + 2 * fit_eccentricity \
@@ -507,7 +602,7 @@ def _start_values(data: _Velocities, setup: _OrbitSetup) -> tuple[np.ndarray, fl
     best = None
     for ec, es in grid:
         chi2, coef = solve(ec, es)
-        if coef[1] > 0 and (not data.double or coef[2] > 0) and (best is None or chi2 < best[0]):
+        if (not data.has1 or coef[1] > 0) and (not data.has2 or coef[2] > 0) and (best is None or chi2 < best[0]):
             best = (chi2, coef, ec, es)
     if best is None:  # every grid point gave a negative K: keep the circular solution's magnitudes
         chi2, coef = solve(setup.ecosw, setup.esinw)
@@ -521,8 +616,9 @@ def _parameters(data: _Velocities, setup: _OrbitSetup, coef: np.ndarray, ecosw: 
     """The lmfit parameters, with their bounds; t0 is fitted as an offset from the start value."""
     p_val = setup.period
     params = lmfit.Parameters()
-    params.add("k_primary", value=max(coef[1], 1e-3), min=0.0)
-    if data.double:
+    if data.has1:
+        params.add("k_primary", value=max(coef[1], 1e-3), min=0.0)
+    if data.has2:
         params.add("k_secondary", value=max(coef[2], 1e-3), min=0.0)
     params.add("gamma", value=coef[0])
     if setup.separate_gamma:
@@ -532,8 +628,9 @@ def _parameters(data: _Velocities, setup: _OrbitSetup, coef: np.ndarray, ecosw: 
     params.add("period", value=p_val, min=0.5 * p_val, max=1.5 * p_val, vary=setup.fit_ephemeris)
     params.add("t0_offset", value=0.0, min=-0.5 * p_val, max=0.5 * p_val, vary=setup.fit_t0)  # t0 - t_ref
     if setup.jitter:
-        params.add("jitter_primary", value=0.5 * float(np.median(data.e1[data.m1])), min=0.0)
-        if data.double:
+        if data.has1:
+            params.add("jitter_primary", value=0.5 * float(np.median(data.e1[data.m1])), min=0.0)
+        if data.has2:
             params.add("jitter_secondary", value=0.5 * float(np.median(data.e2[data.m2])), min=0.0)
     return params
 
@@ -571,7 +668,8 @@ class _VelocityProblem:
         if e > _E_MAX:  # keep Kepler's equation well posed at the box corners
             ec, es = ec * _E_MAX / e, es * _E_MAX / e
         m_1, m_2 = _orbit.radial_velocities(self.data.time, period=pv["period"], t0=self.t_ref + pv["t0_offset"],
-                                            k_primary=pv["k_primary"], k_secondary=pv.get("k_secondary", 0.0),
+                                            k_primary=pv.get("k_primary", 0.0),
+                                            k_secondary=pv.get("k_secondary", 0.0),
                                             gamma=pv["gamma"], ecosw=ec, esinw=es, **self.setup.model_kw)
         return np.asarray(m_1, float), np.asarray(m_2, float) + pv.get("gamma_offset", 0.0)
 
@@ -581,24 +679,27 @@ class _VelocityProblem:
         mod1, mod2 = self.model(pv)
         parts = []
         s1 = pv.get("jitter_primary", 0.0)
-        var1 = (d.e1[d.m1] * self.scale["primary"]) ** 2 + s1**2
-        parts.append((d.rv1[d.m1] - mod1[d.m1]) / np.sqrt(var1))
-        if d.double:
-            s2 = pv.get("jitter_secondary", 0.0)
+        s2 = pv.get("jitter_secondary", 0.0)
+        if d.has1:
+            var1 = (d.e1[d.m1] * self.scale["primary"]) ** 2 + s1**2
+            parts.append((d.rv1[d.m1] - mod1[d.m1]) / np.sqrt(var1))
+        if d.has2:
             var2 = (d.e2[d.m2] * self.scale["secondary"]) ** 2 + s2**2
             parts.append((d.rv2[d.m2] - mod2[d.m2]) / np.sqrt(var2))
         if self.setup.jitter and augmented:
             # sum of squares of these = sum ln(var / sigma^2): the normalisation of the likelihood
-            parts.append(np.sqrt(np.log1p(s1**2 / d.e1[d.m1] ** 2)))
-            if d.double:
+            if d.has1:
+                parts.append(np.sqrt(np.log1p(s1**2 / d.e1[d.m1] ** 2)))
+            if d.has2:
                 parts.append(np.sqrt(np.log1p(s2**2 / d.e2[d.m2] ** 2)))
         for name, mu, sig in self.priors:
             x = self.t_ref + pv["t0_offset"] if name == "t0" else pv[name]
             parts.append(np.atleast_1d((x - mu) / sig))
         return np.concatenate(parts)
 
-    def minimize(self, p: lmfit.Parameters) -> lmfit.minimizer.MinimizerResult:
-        return lmfit.minimize(self.residual, p, method="least_squares", scale_covar=False, nan_policy="raise")
+    def minimize(self, p: lmfit.Parameters, max_nfev: int | None = None) -> lmfit.minimizer.MinimizerResult:
+        return lmfit.minimize(self.residual, p, method="least_squares", scale_covar=False, nan_policy="raise",
+                              max_nfev=max_nfev)
 
     def fit(self, params: lmfit.Parameters) -> tuple[lmfit.minimizer.MinimizerResult, Any]:
         """The fit whose covariance gives the orbit's uncertainties, and the jitter fit (None without jitter)."""
@@ -624,9 +725,10 @@ class _VelocityProblem:
         mod1, mod2 = self.model(pv)
         n = d.n1 + d.n2 + s.n_prior
         dof_frac = max(n - s.n_free, 1) / n
-        chi1 = np.sum(((d.rv1[d.m1] - mod1[d.m1]) / d.e1[d.m1]) ** 2)
-        self.scale["primary"] = float(np.sqrt(max(1.0, chi1 / (d.n1 * dof_frac))))
-        if d.double:
+        if d.has1:
+            chi1 = np.sum(((d.rv1[d.m1] - mod1[d.m1]) / d.e1[d.m1]) ** 2)
+            self.scale["primary"] = float(np.sqrt(max(1.0, chi1 / (d.n1 * dof_frac))))
+        if d.has2:
             chi2_ = np.sum(((d.rv2[d.m2] - mod2[d.m2]) / d.e2[d.m2]) ** 2)
             self.scale["secondary"] = float(np.sqrt(max(1.0, chi2_ / (d.n2 * dof_frac))))
 
@@ -636,10 +738,10 @@ class _VelocityProblem:
         mod1, mod2 = self.model(pv)
         res1 = np.where(d.m1, d.rv1 - mod1, np.nan)
         res2 = np.where(d.m2, d.rv2 - mod2, np.nan)
-        rms1 = float(np.sqrt(np.mean(res1[d.m1] ** 2)))
-        rms2 = float(np.sqrt(np.mean(res2[d.m2] ** 2))) if d.double else float("nan")
+        rms1 = float(np.sqrt(np.mean(res1[d.m1] ** 2))) if d.has1 else float("nan")
+        rms2 = float(np.sqrt(np.mean(res2[d.m2] ** 2))) if d.has2 else float("nan")
         chisqr = float(np.sum(res1[d.m1] ** 2 / (d.e1[d.m1] ** 2 + jit_val["primary"] ** 2)))
-        if d.double:
+        if d.has2:
             chisqr += float(np.sum(res2[d.m2] ** 2 / (d.e2[d.m2] ** 2 + jit_val["secondary"] ** 2)))
         for name, mu, sig in self.priors:
             x = self.t_ref + pv["t0_offset"] if name == "t0" else pv[name]
@@ -675,7 +777,7 @@ def _covariance_samples(result: Any, n_samples: int, rng: np.random.Generator, n
         if name in var_names:
             samp[name] = draws[:, var_names.index(name)]
         else:
-            samp[name] = np.full(n_samples, pv.get(name, np.nan if name == "k_secondary" else 0.0))
+            samp[name] = np.full(n_samples, pv.get(name, np.nan if name.startswith("k_") else 0.0))
     return stderr, samp
 
 
@@ -696,7 +798,7 @@ def _jitter_estimates(jitter_result: Any, data: _Velocities, notes: _notes.Notes
         if s > 1e-3 * float(np.median(err[mask])) and fisher > 0:
             jit_err[star] = float(1 / np.sqrt(fisher))
         else:
-            notes.warn(f"the {star}'s jitter is consistent with zero")
+            notes.note(f"the {star}'s jitter is consistent with zero")  # information: no bias
     return jit_val, jit_err
 
 
@@ -714,7 +816,9 @@ def _add_derived_samples(samp: dict[str, np.ndarray], pv: dict[str, float], t_re
     om = np.degrees(np.arctan2(samp["esinw"], samp["ecosw"]))
     samp["omega"] = om_best + (om - om_best + 180) % 360 - 180
     ecc_c = np.clip(ecc, 0, 0.999)
-    samp["mass_function"] = _mass_function(samp["period"], samp["k_primary"], ecc_c)
+    # with the secondary's velocities only, the mass function of its orbit (M1^3 sin^3 i / (M1 + M2)^2)
+    k_main = samp["k_primary"] if np.all(np.isfinite(samp["k_primary"])) else samp["k_secondary"]
+    samp["mass_function"] = _mass_function(samp["period"], k_main, ecc_c)
     samp["a1_sin_i"] = _asini(samp["period"], samp["k_primary"], 0.0, ecc_c)
     if double:
         samp["mass_ratio"] = samp["k_primary"] / k2s
@@ -726,11 +830,12 @@ def _add_derived_samples(samp: dict[str, np.ndarray], pv: dict[str, float], t_re
 def _best_values(pv: dict[str, float], t_ref: float, jit_val: dict[str, float], double: bool) -> dict[str, float]:
     """Best-fit values; the derived ones computed from the best fit."""
     e_best = float(np.hypot(pv["ecosw"], pv["esinw"]))
-    values = {"k_primary": pv["k_primary"], "k_secondary": pv.get("k_secondary", np.nan),
+    k1 = pv.get("k_primary", np.nan)
+    values = {"k_primary": k1, "k_secondary": pv.get("k_secondary", np.nan),
               "gamma": pv["gamma"], "gamma_offset": pv.get("gamma_offset", 0.0),
               "ecosw": pv["ecosw"], "esinw": pv["esinw"], "eccentricity": e_best, "omega": _best_omega(pv),
-              "mass_function": _mass_function(pv["period"], pv["k_primary"], e_best),
-              "a1_sin_i": _asini(pv["period"], pv["k_primary"], 0.0, e_best)}
+              "mass_function": _mass_function(pv["period"], k1 if np.isfinite(k1) else pv["k_secondary"], e_best),
+              "a1_sin_i": _asini(pv["period"], k1, 0.0, e_best) if np.isfinite(k1) else np.nan}
     if double:
         values["mass_ratio"] = pv["k_primary"] / pv["k_secondary"]
         m1s, m2s = _minimum_masses(pv["period"], pv["k_primary"], pv["k_secondary"], e_best)
@@ -765,6 +870,110 @@ def _uncertainties(values: dict[str, float], var_names: list[str], stderr: dict[
     return uncert
 
 
+def _quietly(make: Any) -> Any:
+    """Run a trial fit with its warnings suppressed (the adopted fit issues them)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", EclipsekitWarning)
+        return make()
+
+
+def _trial_chi2(rv: VelocityCurve, ephemeris: Any, options: dict[str, Any]) -> tuple[float, dict[str, float]]:
+    """Chi-square (quoted errors, priors) of the best orbit for these labels, and its values; inf if it fails."""
+    def run() -> tuple[float, dict[str, float]]:
+        data = _Velocities.from_curve(rv)
+        setup = _OrbitSetup.check(data, ephemeris, **options, jitter=False, notes=_notes.Notes())
+        problem = _VelocityProblem(data, setup, _priors(setup, _notes.Notes()))
+        # a budget: the wrong labels need not converge (they wander to e -> 1), only fit worse
+        result = problem.minimize(_parameters(data, setup, *_start_values(data, setup)), max_nfev=_TRIAL_NFEV)
+        return float(np.sum(problem.residual(result.params) ** 2)), result.params.valuesdict()
+
+    try:
+        return _quietly(run)
+    except (InputError, FitError, ValueError, RuntimeError, np.linalg.LinAlgError):
+        return float("inf"), {}
+
+
+def _choose_labels(rv: VelocityCurve, ephemeris: Any, options: dict[str, Any], labels: str, info: list[str],
+                   notes: _notes.Notes) -> tuple[VelocityCurve, str]:
+    """The velocities with star 1 as the star eclipsed at primary eclipse, and how that was decided."""
+    if labels == "given":
+        return rv, "as given"
+    if labels == "swapped":
+        why = "velocity columns swapped as asked (labels='swapped'): rv2 is the star eclipsed at primary eclipse"
+        info.append(why)
+        return rv.swapped(why), "swapped"
+    if options["t0"] is None and "t0" not in _ephemeris_info(ephemeris):
+        info.append("velocity labels not checked (no t0): rv1 taken as the star eclipsed at primary eclipse")
+        return rv, "not checked"
+    cols = rv.meta.get("columns") or {}
+    has1 = bool(np.isfinite(rv.rv1).any())
+    name1, name2 = cols.get("rv1") or "rv1", cols.get("rv2") or "rv2"
+    # what the file's columns are, as labelled (a one-star file names its one column)
+    labelled = (f"{name1!r} is the star eclipsed at primary eclipse" if has1
+                else f"{name2!r} is the star eclipsed at secondary eclipse")
+    chi_given, best_given = _trial_chi2(rv, ephemeris, options)
+    chi_swapped, best_swapped = _trial_chi2(rv.swapped(""), ephemeris, options)
+    if not np.isfinite(chi_given) and not np.isfinite(chi_swapped):  # the fit itself will say why
+        return rv, "not checked"
+    if chi_given - chi_swapped > _LABEL_DELTA_CHI2:
+        def k_text(best: dict[str, float]) -> str:
+            return ", ".join(f"{lab} = {best[key]:.3g} km/s" for key, lab in
+                             (("k_primary", "K1"), ("k_secondary", "K2")) if key in best)
+        actual = (f"{name1!r} belongs to the star eclipsed at secondary eclipse" if has1
+                  else f"{name2!r} belongs to the star eclipsed at primary eclipse")
+        why = (f"velocity columns swapped: {actual} (as labelled, chi-square {chi_given:.4g} with "
+               f"{k_text(best_given)}, the orbit would need omega + 180 deg; exchanged, chi-square "
+               f"{chi_swapped:.4g})")
+        info.append(why)
+        return rv.swapped(why), "swapped"
+    if chi_swapped - chi_given > _LABEL_DELTA_CHI2:
+        info.append(f"velocity labels checked: {labelled} (chi-square {chi_given:.4g} as labelled, "
+                    f"{chi_swapped:.4g} exchanged)")
+        return rv, "as given"
+    notes.warn(f"the velocities cannot tell which star is eclipsed at primary eclipse (chi-square {chi_given:.4g} "
+               f"as labelled, {chi_swapped:.4g} exchanged); kept as labelled: {labelled}")
+    return rv, "ambiguous"
+
+
+def _fit_noise_model(data: _Velocities, ephemeris: Any, options: dict[str, Any], jitter: bool | None,
+                     info: list[str], notes: _notes.Notes) -> tuple[_VelocityProblem, Any, Any, str]:
+    """The fit with quoted, scaled errors or a jitter term: ``(problem, result, jitter_result, noise_model)``.
+
+    By default (``jitter`` None) a jitter term per star replaces the error scaling when a
+    star's scatter exceeds :data:`_JITTER_FACTOR` times its quoted errors.
+    """
+    def build(with_jitter: bool, step_notes: _notes.Notes) -> tuple[_VelocityProblem, lmfit.Parameters]:
+        setup = _OrbitSetup.check(data, ephemeris, **options, jitter=with_jitter, notes=step_notes)
+        return _VelocityProblem(data, setup, _priors(setup, step_notes)), _parameters(data, setup,
+                                                                                      *_start_values(data, setup))
+
+    problem, params = build(bool(jitter), notes)
+    result, jitter_result = problem.fit(params)
+    stars = [st for st, has in (("primary", data.has1), ("secondary", data.has2)) if has]
+    excess = ", ".join(f"{problem.scale[st]:.2f}x ({st})" for st in stars)
+    if jitter:
+        info.append("a jitter term per star was fitted (jitter=True) by maximum likelihood, added in quadrature "
+                    "to the quoted errors")
+        return problem, result, jitter_result, "jitter"
+    if jitter is None and max(problem.scale.values()) > _JITTER_FACTOR:
+        try:
+            trial = _quietly(lambda: build(True, _notes.Notes()))
+        except InputError:
+            notes.warn(f"velocity scatter {excess} the quoted errors, but too few velocities to fit a jitter "
+                       "term: the errors were scaled instead")
+        else:
+            problem = trial[0]
+            result, jitter_result = problem.fit(trial[1])
+            info.append(f"velocity scatter {excess} the quoted errors (over {_JITTER_FACTOR:g}x): a jitter term per "
+                        "star was fitted by maximum likelihood, added in quadrature to the quoted errors")
+            return problem, result, jitter_result, "jitter"
+    if max(problem.scale.values()) > 1:
+        info.append(f"velocity errors scaled to the scatter: {excess} the quoted errors")
+        return problem, result, jitter_result, "scaled errors"
+    info.append("velocity scatter consistent with the quoted errors: errors used as given (not scaled)")
+    return problem, result, jitter_result, "quoted errors"
+
+
 def _quality_notes(problem: _VelocityProblem, pv: dict[str, float], notes: _notes.Notes) -> None:
     """Warnings about the data: scaled errors, phase coverage, few secondary velocities."""
     d = problem.data
@@ -774,12 +983,15 @@ def _quality_notes(problem: _VelocityProblem, pv: dict[str, float], notes: _note
                 notes.warn(f"the {star}'s velocity scatter is {s:.2f}x its quoted errors; errors were scaled "
                            f"(consider jitter=True)")
     t0_best = problem.t_ref + pv["t0_offset"]
-    phase = np.sort(((d.time[d.m1] - t0_best) / pv["period"]) % 1.0)
+    phase = np.sort(((d.time[d.main_mask] - t0_best) / pv["period"]) % 1.0)
     gaps = np.diff(np.concatenate([phase, phase[:1] + 1]))
     if gaps.size and gaps.max() > 0.5:
-        notes.warn(f"the primary's velocities leave a phase gap of {gaps.max():.2f}; K and e are poorly "
+        notes.warn(f"the {'primary' if d.has1 else 'secondary'}'s velocities leave a phase gap of {gaps.max():.2f}; K and e are poorly "
                    f"constrained")
     if d.double and d.n2 < 3:
         notes.warn(f"only {d.n2} secondary velocities: K2 rests on very few points")
-    if not d.double:
+    if not d.has2:
         notes.note("single-lined: K1 and the mass function only; masses need the secondary's velocities")
+    elif not d.has1:
+        notes.note("the secondary's velocities only: K2 and the mass function of its orbit; masses need the "
+                   "primary's velocities too")

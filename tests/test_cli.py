@@ -346,3 +346,117 @@ def test_caveat_statuses_exit_0_with_reason_first(total_csv, tmp_path, capsys, m
     first = capsys.readouterr().out.splitlines()[0]
     assert first.endswith(f"status: {status}: {reason}")
     assert json.loads((tmp_path / "o" / "result.json").read_text())["status"] == status
+
+
+# --- velocity files: columns, labels, time systems (issue 12, issue 13 items 7 and 10) --------------
+from astropy import units as u  # noqa: E402
+from astropy.coordinates import EarthLocation, SkyCoord  # noqa: E402
+from astropy.time import Time  # noqa: E402
+
+from _textbook import textbook_velocity  # noqa: E402
+from eclipsekit.cli import build_parser  # noqa: E402
+
+BJD0 = 2459000.0   # the invented light curve's times are BJD_TDB - BJD0 in tests/_systems.py
+
+
+def _options(parser):
+    out = set()
+    for action in parser._actions:
+        out.update(action.option_strings)
+        if isinstance(action.choices, dict):   # the sub-commands
+            for sub in action.choices.values():
+                out |= _options(sub)
+    return out
+
+
+def test_velocity_file_without_velocity_columns_suggests_existing_options(tmp_path, capsys):
+    rv = _write_csv(tmp_path / "rv.csv", "time,speed,speed_err", np.ones((10, 3)))
+    assert main(["inspect", str(rv), "--rv1-col", "nope"]) == 2
+    assert "--rv1-col" in _one_line_error(capsys)
+    lc, _ = sample_paths()
+    assert main(["run", str(lc), "--rv", str(rv), "--out", str(tmp_path / "o"), "--quiet"]) == 2
+    msg = _one_line_error(capsys)
+    suggested = set(re.findall(r"--[a-z0-9-]+", msg))
+    assert {"--rv1-col", "--rv2-col"} <= suggested
+    assert suggested <= _options(build_parser())       # every option named exists
+
+
+def test_inspect_describes_a_secondary_only_velocity_file(tmp_path, capsys):
+    rows = [(BJD0 + i, 20.0 * math.sin(i), 1.0) for i in range(6)]
+    rv = _write_csv(tmp_path / "rv2.csv", "bjd_tdb,rv2,rv2_err", rows)
+    assert main(["inspect", str(rv)]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("Velocities:") and "secondary (rv2): 6 velocities" in out
+    assert "primary (rv1): none" in out and "time system: BJD_TDB" in out
+    # columns named by hand, JSON form
+    odd = _write_csv(tmp_path / "odd.csv", "epoch,v_b,v_b_unc", rows)
+    assert main(["inspect", str(odd), "--rv-time-col", "epoch", "--rv2-col", "v_b", "--rv2-err-col", "v_b_unc",
+                 "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["kind"] == "velocities" and d["n_secondary"] == 6 and d["n_primary"] == 0
+
+
+@pytest.fixture(scope="module")
+def labelled_run(tmp_path_factory):
+    """`run` on a BJD_TDB light curve with HJD velocities whose file labels star 2 as the first column."""
+    folder = tmp_path_factory.mktemp("labels")
+    s = SYSTEMS["total"]
+    t, f, e = light_curve_arrays("total", 11, n_orbits=2)
+    lc = _write_csv(folder / "lc.csv", "bjd_tdb,flux,flux_err", np.column_stack([t + BJD0, f, e]))
+    # invented velocities (Hilditch 2001 textbook model, tests/_textbook.py), circular orbit, K1 60, K2 80 km/s
+    bjd = BJD0 + s["t0"] + np.linspace(0.1, 9.3, 16) * s["period"] / 3.7
+    common = dict(period=s["period"], t0=BJD0 + s["t0"], gamma=5.0, e=0.0, omega_deg=90.0)
+    rng = np.random.default_rng(3)
+    v1 = textbook_velocity(bjd, k=60.0, **common) + rng.normal(0, 1.0, bjd.size)
+    v2 = textbook_velocity(bjd, k=80.0, sign=-1.0, **common) + rng.normal(0, 1.0, bjd.size)
+    # the file's times in HJD, converted with astropy directly (from BJD_TDB at the geocentre)
+    target = SkyCoord(150.1 * u.deg, -20.5 * u.deg)
+    geo = Time(bjd, format="jd", scale="tdb", location=EarthLocation.from_geocentric(0, 0, 0, unit=u.m))
+    for _ in range(3):
+        geo = Time(bjd, format="jd", scale="tdb", location=geo.location) - geo.light_travel_time(target)
+    hjd = (geo.utc + geo.light_travel_time(target, kind="heliocentric")).utc.jd
+    rows = np.column_stack([hjd, v2, np.ones(bjd.size), v1, np.ones(bjd.size)])
+    rv = folder / "rv.csv"
+    rv.write_text("epoch,vel_a,vel_a_err,vel_b,vel_b_err\n"
+                  + "\n".join(f"{r[0]:.6f},{r[1]:.3f},{r[2]:.2f},{r[3]:.3f},{r[4]:.2f}" for r in rows) + "\n")
+    argv = ["run", str(lc), "--rv", str(rv), "--period", repr(s["period"]), "--t0", repr(BJD0 + s["t0"]),
+            "--rv-time-col", "epoch", "--rv-time-system", "HJD", "--rv1-col", "vel_a", "--rv1-err-col", "vel_a_err",
+            "--rv2-col", "vel_b", "--rv2-err-col", "vel_b_err", "--coordinates", "10:00:24 -20:30:00",
+            "--errors", "covariance", "--seed", "2", "--quiet", "--out", str(folder / "o")]
+    return folder / "o", argv
+
+
+def test_run_swaps_labels_and_converts_times(labelled_run, capsys):
+    out, argv = labelled_run
+    code, printed = _run(argv, capsys)
+    assert code == 0
+    result = json.loads((out / "result.json").read_text())
+    vel = result["input"]["velocities"]
+    assert vel["labels"] == "swapped" and vel["time_converted_from"] == "HJD" and vel["time_system"] == "BJD_TDB"
+    assert any(n.startswith("velocity columns swapped: 'vel_a'") for n in result["fit"]["notes"])
+    assert "note: velocity columns swapped" in printed and "converted from HJD to BJD_TDB" in printed
+    assert not any("time systems differ" in w for w in result["fit"]["warnings"])
+    spec = result["spectroscopy"]
+    # the invented K's, within 4 sigma
+    assert abs(spec["k_primary"]["value"] - 60.0) < 4 * spec["k_primary"]["uncertainty"]
+    assert abs(spec["k_secondary"]["value"] - 80.0) < 4 * spec["k_secondary"]["uncertainty"]
+    assert result["status"] != "no_orbit_found"
+
+
+def test_run_with_labels_kept_wrong_is_not_ok(labelled_run, capsys, tmp_path):
+    # regression test for issue 12 (K1 = K2 = 0, masses of 0.009 M_sun, status "ok"): forced to keep the
+    # wrong labels, the run says no orbit was found, computes no masses and exits 1
+    _, argv = labelled_run
+    argv = argv[:-1] + [str(tmp_path / "o")] + ["--rv-labels", "given"]
+    code, printed = _run(argv, capsys)
+    assert code == 1
+    result = json.loads((tmp_path / "o" / "result.json").read_text())
+    assert result["status"] == "no_orbit_found" and "consistent with zero" in result["message"]
+    assert "absolute" not in result
+
+
+def test_bad_coordinates_are_a_one_line_error(total_csv, tmp_path, capsys):
+    _, rv = sample_paths()
+    assert main(["run", str(total_csv), "--rv", str(rv), "--coordinates", "north", "--quiet",
+                 "--out", str(tmp_path / "o")]) == 2
+    assert "--coordinates" in _one_line_error(capsys)

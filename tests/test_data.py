@@ -682,3 +682,24 @@ def test_light_curve_refuses_values_out_of_range(kwargs, match):
     arrays = {"time": np.arange(30.0), "flux": np.ones(30), "flux_err": np.full(30, 1e-3), **kwargs}
     with pytest.raises(InputError, match=match):
         LightCurve(**arrays)
+
+
+def test_secondary_only_velocity_file(tmp_path):
+    # issue 13 item 7: a file with the secondary's velocities only is read as such (not refused)
+    rows = [(2459000.0 + i, -30.0 + 7.0 * i, 1.5) for i in range(5)] + [(2459006.0, float("nan"), 1.5)]
+    rv = read_velocities(write_csv(tmp_path / "rv.csv", ["bjd_tdb", "rv2", "rv2_err"], rows))
+    assert not rv.double_lined and np.isnan(rv.rv1).all()
+    np.testing.assert_array_equal(rv.rv2, [-30.0 + 7.0 * i for i in range(5)])
+    assert rv.meta["columns"]["rv2"] == "rv2" and rv.meta["columns"]["rv1"] is None
+    assert rv.rejected["non-finite"].tolist() == [5]
+    d = rv.summary_dict()
+    assert (d["n_primary"], d["n_secondary"]) == (0, 5)
+    assert "secondary (rv2): 5 velocities" in rv.summary()
+    # too few of them: the message counts the secondary's velocities
+    few = write_csv(tmp_path / "few.csv", ["bjd_tdb", "rv2", "rv2_err"], rows[:2])
+    with pytest.raises(InputError, match="only 2 secondary velocities"):
+        read_velocities(few)
+    # swapping the columns back and forth is an identity on the data, and recorded
+    back = rv.swapped("a").swapped("b")
+    np.testing.assert_array_equal(back.rv2, rv.rv2)
+    assert back.meta["labels_swapped"] is False and back.meta["notes"][-2:] == ["a", "b"]

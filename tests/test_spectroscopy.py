@@ -141,10 +141,41 @@ def test_jitter_recovers_extra_scatter():
     assert abs(s1 - 2.0) < 3 * ds1          # maximum likelihood, Fisher error
     assert fit.values["jitter_secondary"] < 0.5
     assert abs(fit.values["k_primary"] - TRUE["k1"]) < 4 * fit.uncertainties["k_primary"]
-    # without jitter the primary's errors are scaled up instead, by about 2.06/0.5
+    # with jitter=False the primary's errors are scaled up instead, by about 2.06/0.5
     with pytest.warns(EclipsekitWarning, match="scatter"):
-        plain = fit_velocities(rv, eph)
+        plain = fit_velocities(rv, eph, jitter=False)
     assert plain.error_scale_primary == pytest.approx(np.hypot(0.5, 2.0) / 0.5, rel=0.25)
+    assert plain.noise_model == "scaled errors" and not plain.jitter
+
+
+def test_jitter_fitted_by_default_when_scatter_exceeds_twice_the_errors():
+    # invented data with known jitter: 1.5 km/s (primary) and 2.5 km/s (secondary) on quoted errors of
+    # 0.5 km/s, i.e. scatter 3.2x and 5.1x the errors (over the factor 2 of the brief)
+    rv = make_rv(seed=29, n=60, err1=0.5, err2=0.5, jitter=(1.5, 2.5))
+    eph = Ephemeris({"period": TRUE["period"], "t0": TRUE["t0"],
+                     "ecosw": TRUE["e"] * np.cos(np.radians(TRUE["omega"])),
+                     "esinw": TRUE["e"] * np.sin(np.radians(TRUE["omega"]))})
+    fit = fit_velocities(rv, eph, seed=5)           # no option: the default decides
+    assert fit.jitter and fit.noise_model == "jitter"
+    assert any("jitter term per star was fitted" in n for n in fit.notes)
+    for star, truth in (("primary", 1.5), ("secondary", 2.5)):
+        s, ds = fit.values[f"jitter_{star}"], fit.uncertainties[f"jitter_{star}"]
+        # maximum-likelihood jitter within 2 sigma of its Fisher error (sigma of a variance estimate
+        # from 60 points: s / sqrt(2 * 60) ~ 0.15-0.25 km/s; Gaussian likelihood theory)
+        assert abs(s - truth) < 2 * ds, star
+    # the same as asking for it explicitly
+    asked = fit_velocities(rv, eph, jitter=True, seed=5)
+    assert asked.values["jitter_primary"] == pytest.approx(fit.values["jitter_primary"], rel=1e-9)
+
+
+def test_consistent_scatter_keeps_quoted_errors_and_says_so():
+    # noise drawn with exactly the quoted errors: no jitter, errors scaled at most mildly (never by 2x)
+    rv = make_rv(seed=31, n=40)
+    fit = fit_velocities(rv, Ephemeris({"period": TRUE["period"], "t0": TRUE["t0"]}), fit_eccentricity=True)
+    assert not fit.jitter and fit.noise_model in ("quoted errors", "scaled errors")
+    assert fit.error_scale_primary < 2 and fit.error_scale_secondary < 2
+    said = {"quoted errors": "errors used as given", "scaled errors": "errors scaled"}[fit.noise_model]
+    assert any(said in n for n in fit.notes) and said in fit.summary()
 
 
 def test_free_ephemeris_with_prior_and_separate_gamma():
@@ -195,3 +226,82 @@ def test_light_curve_eccentricity_as_prior_by_default():
     assert fit.uncertainties["ecosw"] <= 1e-4 * 1.0001
     assert fit.uncertainties["esinw"] < 0.01
     assert abs(fit.values["esinw"] - esinw) < 4 * fit.uncertainties["esinw"]
+
+
+# --- velocity labels (issue 12) -------------------------------------------------------------
+ECC_EPH = {"period": TRUE["period"], "t0": TRUE["t0"], "inclination": 86.0,
+           "ecosw": TRUE["e"] * np.cos(np.radians(TRUE["omega"])),
+           "esinw": TRUE["e"] * np.sin(np.radians(TRUE["omega"]))}
+
+
+def _exchanged(rv):
+    """The same velocities with the file's columns the other way round (star 2 labelled rv1)."""
+    return VelocityCurve(rv.time, rv.rv2, rv.rv2_err, rv.rv1, rv.rv1_err)
+
+
+def _kepler_minimum_masses(period_d, k1, k2, e):
+    # M1 sin^3 i = P K2 (K1 + K2)^2 (1 - e^2)^{3/2} / (2 pi G), and M2 sin^3 i with K1 (Hilditch 2001,
+    # "An Introduction to Close Binary Stars", ch. 2; formula from memory), G from astropy.constants
+    p, k1, k2 = period_d * u.day, k1 * u.km / u.s, k2 * u.km / u.s
+    common = p * (k1 + k2) ** 2 * (1 - e**2) ** 1.5 / (2 * np.pi * const.G)
+    return (common * k2).to_value(u.M_sun), (common * k1).to_value(u.M_sun)
+
+
+@pytest.mark.parametrize("eph", [ECC_EPH, {**ECC_EPH, "ecosw": 0.0, "esinw": 0.0}], ids=["eccentric", "circular"])
+def test_swapped_columns_give_the_same_masses_with_a_note(eph):
+    true = TRUE if eph["ecosw"] else {**TRUE, "e": 0.0}
+    rv = make_rv(seed=37, true=true)
+    right = fit_velocities(rv, Ephemeris(eph), seed=6)
+    swapped = fit_velocities(_exchanged(rv), Ephemeris(eph), seed=6)
+    assert right.labels == "as given" and swapped.labels == "swapped"
+    assert any(n.startswith("velocity columns swapped:") for n in swapped.notes)
+    assert "velocity columns swapped" in swapped.summary()
+    for key in ("mass_primary_sin3i", "mass_secondary_sin3i", "k_primary", "k_secondary"):
+        sigma = right.uncertainties[key]
+        assert abs(swapped.values[key] - right.values[key]) < 0.01 * sigma, key
+    # the masses follow Kepler's third law from the fitted K's, and match the invented truth
+    v = right.values
+    m1, m2 = _kepler_minimum_masses(v["period"], v["k_primary"], v["k_secondary"], v["eccentricity"])
+    assert v["mass_primary_sin3i"] == pytest.approx(m1, rel=1e-9)
+    assert v["mass_secondary_sin3i"] == pytest.approx(m2, rel=1e-9)
+    t1, t2 = _kepler_minimum_masses(true["period"], true["k1"], true["k2"], true["e"])
+    assert abs(v["mass_primary_sin3i"] - t1) < 4 * right.uncertainties["mass_primary_sin3i"]
+    assert abs(v["mass_secondary_sin3i"] - t2) < 4 * right.uncertainties["mass_secondary_sin3i"]
+
+
+def test_wrong_labels_kept_on_request_are_never_a_quiet_answer():
+    # regression test for issue 12: columns the wrong way round on a circular orbit gave K1 = K2 = 0 and
+    # masses of 0.009 M_sun with no warning.  Kept as labelled on purpose, the orbit is flagged.
+    rv = _exchanged(make_rv(seed=41, true={**TRUE, "e": 0.0}))
+    eph = Ephemeris({"period": TRUE["period"], "t0": TRUE["t0"], "ecosw": 0.0, "esinw": 0.0})
+    with pytest.warns(EclipsekitWarning, match="consistent with zero"):
+        fit = fit_velocities(rv, eph, labels="given", seed=7)
+    assert fit.labels == "as given"
+    assert len(fit.no_orbit_reasons) == 2     # K1 and K2 both consistent with zero
+    with pytest.raises(InputError, match="labels"):
+        fit_velocities(rv, eph, labels="backwards")
+
+
+def test_secondary_only_velocities_are_fitted():
+    # a file with the secondary's velocities only (issue 12, issue 13 item 7)
+    full = make_rv(seed=43, n=25)
+    rv2_only = VelocityCurve(full.time, None, None, full.rv2, full.rv2_err)
+    eph = Ephemeris(ECC_EPH)
+    fit = fit_velocities(rv2_only, eph, seed=8)
+    assert fit.labels == "as given" and not fit.double_lined
+    assert np.isnan(fit.values["k_primary"])
+    assert abs(fit.values["k_secondary"] - TRUE["k2"]) < 4 * fit.uncertainties["k_secondary"]
+    # mass function of the secondary's orbit, f = P K2^3 (1 - e^2)^{3/2} / (2 pi G) (Hilditch 2001, ch. 2,
+    # from memory), through astropy.constants
+    e = fit.values["eccentricity"]
+    fm = (fit.values["period"] * u.day * (fit.values["k_secondary"] * u.km / u.s) ** 3 * (1 - e**2) ** 1.5
+          / (2 * np.pi * const.G)).to_value(u.M_sun)
+    assert fit.values["mass_function"] == pytest.approx(fm, rel=1e-9)
+    rv1_model, rv2_model = fit.model(rv2_only.time)
+    assert np.isnan(rv1_model).all()
+    np.testing.assert_allclose(rv2_only.rv2 - rv2_model, fit.residuals_secondary)
+    # the same velocities labelled as star 1 are recognised as the secondary's
+    mislabelled = VelocityCurve(full.time, full.rv2, full.rv2_err)
+    again = fit_velocities(mislabelled, eph, seed=8)
+    assert again.labels == "swapped"
+    assert again.values["k_secondary"] == pytest.approx(fit.values["k_secondary"], abs=0.01 * fit.uncertainties["k_secondary"])
