@@ -42,6 +42,7 @@ from astropy.table import Table
 from astropy.timeseries import BoxLeastSquares
 from scipy.optimize import least_squares
 
+from ._eclipse_shape import BIC_MARGIN, N_HARM_SMOOTH, N_HARM_WAVE, eclipse_versus_smooth
 from ._grid import Q_MAX, bin_in_time, frequency_grid, grid_size, min_duty_cycle, period_bands, trial_durations
 from ._pdm import pdm_theta
 from ._validate import as_float
@@ -523,22 +524,6 @@ def _secondary_scan(ph, y, w, q1, exclude_half):
         if snr[j] > best[0]:
             best = (float(snr[j]), float(c[j]), float(q), float(depth[j]), float(err[j]))
     return best
-
-
-def _fourier_dchi2(t, y, w, period, n_harm=2):
-    """Δχ² of a weighted Fourier series (``n_harm`` harmonics) at ``period`` over a constant, and residuals."""
-    x = 2 * np.pi * t / period
-    cols = [np.ones_like(t)]
-    for k in range(1, n_harm + 1):
-        cols += [np.cos(k * x), np.sin(k * x)]
-    a = np.column_stack(cols)
-    sw = np.sqrt(w)
-    coef, *_ = np.linalg.lstsq(a * sw[:, None], y * sw, rcond=None)
-    model = a @ coef
-    ybar = np.dot(w, y) / w.sum()
-    chi_const = float(np.dot(w, (y - ybar) ** 2))
-    chi_model = float(np.dot(w, (y - model) ** 2))
-    return chi_const - chi_model, y - model + coef[0]
 
 
 def _odd_even(ph, y, w, epoch, half, ref, n_template=24):
@@ -1132,24 +1117,28 @@ def _check_detection(s: _Setup, ev: dict, significance: float, threshold: float,
     if ev["n_events1"] < 2:
         raise fail(f"only one primary eclipse observed at the best candidate ({ev['period']:.5f} d): "
                    "the period is not constrained")
-    # eclipse or smooth modulation?  Fit a 2-harmonic sinusoid at P, then the primary box on the residuals.
+    # eclipse or smooth modulation?  A wave plus free eclipse windows against a smooth Fourier series, by BIC
     t, w = s.t, s.w
-    dchi_sin, resid = _fourier_dchi2(t, s.y, w, ev["period"])
-    ph = orbital_phase(t, ev["period"], ev["t0"], -0.5)
-    in1 = np.abs(ph) < 0.5 * ev["duration"] / ev["period"]
-    ref = np.abs(ph) >= max(0.5 * ev["extent1"], 0.75 * ev["duration"]) / ev["period"]
-    dr, er = _box_depth(resid, w, in1, ref)
-    box_resid = (dr / er) ** 2 if (np.isfinite(dr) and dr > 0) else 0.0
-    # an eclipse keeps most of its box signal after a smooth fit is removed; spot modulation
-    # does not (its "dip" is the sinusoid's minimum): ≥ 4σ left, ≥ 20% of the sinusoid's
-    # Δχ² and ≥ 25% of the box's own Δχ² before the sinusoid was removed
-    need = max(16.0, 0.2 * dchi_sin, 0.25 * ev["snr1"] ** 2)
-    if box_resid < need:
-        raise fail(f"the periodic signal at {ev['period']:.5f} d is smooth modulation (e.g. spots), not an "
-                   f"eclipse: a 2-harmonic sinusoid explains Δχ² {dchi_sin:.1f}, and a box on its residuals only "
-                   f"{box_resid:.1f} (needs ≥ {need:.1f})")
-    reasons.append(f"eclipse-shaped: box on the residuals of a 2-harmonic sinusoid still gives Δχ² "
-                   f"{box_resid:.1f} (sinusoid {dchi_sin:.1f})")
+    P = ev["period"]
+    ph = orbital_phase(t, P, ev["t0"], -0.5)
+    q1 = ev["duration"] / P
+    in1 = np.abs(ph) < 0.5 * q1
+    half1 = 0.5 * ev["extent1"] / P + q1 / 8
+    phase2 = half2 = math.nan
+    if ev["secondary"]:
+        q2 = ev["width2"] / P
+        phase2 = ev["phase2"]
+        d2 = orbital_phase(t, P, ev["t0"] + phase2 * P, -0.5)
+        half2 = _dip_extent(d2, s.y, w, q2) + q2 / 8
+    cmp = eclipse_versus_smooth(t, s.y, w, P, ev["t0"], half1, phase2=phase2, half2=half2,
+                                duration=ev["duration"])
+    detail = (f"{N_HARM_WAVE}-harmonic wave + eclipse windows χ² {cmp['chi2_eclipse']:.1f} "
+              f"({cmp['n_eclipse']} parameters) vs {N_HARM_SMOOTH}-harmonic series χ² {cmp['chi2_smooth']:.1f} "
+              f"({cmp['n_smooth']}), scaled by {cmp['scale']:.2f} × β² ({cmp['beta']:.2f}²): ΔBIC {cmp['delta_bic']:.1f}")
+    if not cmp["delta_bic"] > BIC_MARGIN:
+        raise fail(f"the periodic signal at {P:.5f} d is smooth modulation (e.g. spots), not an eclipse: "
+                   f"{detail} (an eclipse needs > {BIC_MARGIN:g})")
+    reasons.append(f"eclipse-shaped: {detail}")
     return in1
 
 
