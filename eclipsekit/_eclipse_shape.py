@@ -16,7 +16,7 @@ So the folded light curve is fitted twice, by weighted linear least squares:
 Fitting the wave *together* with the eclipse (rather than the wave first and the eclipse on its
 residuals) keeps a wide eclipse from being absorbed by the wave.  The models are compared by the
 Bayesian information criterion (Schwarz 1978, Ann. Stat. 6, 461), with χ² scaled to the
-residual scatter and for correlated noise by the time-averaging factor β (Pont, Zucker & Queloz
+residual scatter out of eclipse and for correlated noise by the time-averaging factor β (Pont, Zucker & Queloz
 2006, MNRAS 373, 231), so that neither underestimated errors nor red noise decide.
 """
 
@@ -118,32 +118,43 @@ def eclipse_versus_smooth(t, y, w, period: float, t0: float, half1: float, *, ph
     -------
     dict
         ``delta_bic`` (BIC of S minus BIC of E; positive favours the eclipse), ``chi2_eclipse``,
-        ``chi2_smooth``, ``n_eclipse``, ``n_smooth`` (parameters), ``scale`` (reduced χ² of the
-        better model) and ``beta``.
+        ``chi2_smooth``, ``n_eclipse``, ``n_smooth`` (parameters), ``scale`` (reduced χ² outside the
+        eclipse windows) and ``beta``.
 
     Notes
     -----
     ``BIC = χ²/(s² β²) + k ln N`` (Schwarz 1978, Ann. Stat. 6, 461) with ``s²`` the reduced
-    χ² of the better-fitting model and β the red-noise factor of its residuals.  The eclipse
+    χ² and β the red-noise factor of the eclipse model's residuals outside the windows (the
+    wave and the noise only).  The eclipse
     model counts its window centres and widths as parameters too (two per window).
     """
     t = np.asarray(t, float)
     ph = np.mod((t - t0) / period + 0.5, 1.0) - 0.5
     sw = np.sqrt(w)
-    cols_e = _fourier_columns(ph, N_HARM_WAVE) + _window_columns(ph, min(half1, MAX_WINDOW_HALF))
+    half1 = min(half1, MAX_WINDOW_HALF)
+    outside = np.abs(ph) >= half1
+    cols_e = _fourier_columns(ph, N_HARM_WAVE) + _window_columns(ph, half1)
     n_windows = 1
     if math.isfinite(phase2) and math.isfinite(half2):
         d2 = np.mod(ph - phase2 + 0.5, 1.0) - 0.5
-        cols_e += _window_columns(d2, min(half2, MAX_WINDOW_HALF))
+        half2 = min(half2, MAX_WINDOW_HALF)
+        outside &= np.abs(d2) >= half2
+        cols_e += _window_columns(d2, half2)
         n_windows = 2
     chi_e, res_e = _weighted_fit(cols_e, y, sw)
-    chi_s, res_s = _weighted_fit(_fourier_columns(ph, N_HARM_SMOOTH), y, sw)
+    chi_s, _ = _weighted_fit(_fourier_columns(ph, N_HARM_SMOOTH), y, sw)
     k_e = len(cols_e) + 2 * n_windows
     k_s = 1 + 2 * N_HARM_SMOOTH
     n = t.size
-    better_chi, better_res, better_k = (chi_e, res_e, k_e) if chi_e <= chi_s else (chi_s, res_s, k_s)
-    scale = max(1.0, better_chi / max(n - better_k, 1))
-    beta = red_noise_factor(t, better_res, w, duration)
+    # the noise (scatter and correlation) from the eclipse model's residuals outside the windows: the
+    # wave and the noise alone there, so that neither model's misfit of the eclipses inflates it
+    n_out = int(outside.sum())
+    k_wave = 1 + 2 * N_HARM_WAVE
+    if n_out > 2 * k_wave:
+        scale = max(1.0, float(np.sum((res_e[outside] * sw[outside]) ** 2)) / (n_out - k_wave))
+        beta = red_noise_factor(t[outside], res_e[outside], w[outside], duration)
+    else:
+        scale, beta = max(1.0, min(chi_e, chi_s) / max(n - k_s, 1)), 1.0
     delta = (chi_s - chi_e) / (scale * beta ** 2) - (k_e - k_s) * math.log(n)
     return dict(delta_bic=float(delta), chi2_eclipse=chi_e, chi2_smooth=chi_s, n_eclipse=k_e, n_smooth=k_s,
                 scale=float(scale), beta=float(beta))

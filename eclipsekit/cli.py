@@ -494,7 +494,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    print(f"eclipsekit: warning: {message}", file=sys.stderr)
+    print(f"eclipsekit: warning: {_in_option_terms(str(message))}", file=sys.stderr)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -251,7 +251,7 @@ class PeriodSearch:
             return {"value": num(value), "uncertainty": None if err is None else num(err), "unit": unit}
 
         out = {
-            "status": "ok" if self.found else "no_eclipse_found",
+            "status": ("ambiguous" if self.ambiguous else "ok") if self.found else "no_eclipse_found",
             "period": q(self.period, self.period_err, "d"),
             "t0": q(self.t0, self.t0_err, "d"),
             "depth_primary": q(self.depth_primary, self.depth_primary_err, ""),
@@ -778,7 +778,10 @@ def _follow_doublings(evals: list[dict], best: int, tol: float, reasons: list[st
                 seen.add(j)
                 continue
             if j is None:
-                reasons.append(f"odd/even depths differ by {oe:.1f}σ but 2P is outside the search range")
+                # the period at which the two depths are consistent is 2P: say so and flag the answer
+                alternative = 2.0 * ev["period"]
+                reasons.append(f"odd/even depths differ by {oe:.1f}σ but 2P = {alternative:.6f} d is outside the "
+                               f"search range: ambiguous, the true period is probably 2P (search longer periods)")
             else:
                 reasons.append(f"odd/even depths differ by {oe:.1f}σ but 2P folds worse "
                                f"(Δχ² {evals[j]['dchi2']:.1f} vs {ev['dchi2']:.1f}): kept")
@@ -849,8 +852,9 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         Normalised light curve (``time`` in days, ``flux`` ~1 out of eclipse, ``flux_err``).
     min_period, max_period : float or Quantity, optional
         Search range in days.  Defaults: 0.25 d and half the baseline (so that
-        at least two primary eclipses can fall in the data); ``max_period`` may be
-        at most the baseline.
+        at least two primary eclipses can fall in the data).  A ``max_period``
+        beyond the baseline is allowed: an answer resting on one primary and one
+        secondary eclipse then comes with a warning and is flagged ambiguous.
     oversample : float, optional
         Grid density: the phase drift over the baseline between neighbouring trial
         periods is ``1/oversample`` of the narrowest eclipse considered.
@@ -919,6 +923,7 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
     table = _table(evals, best, s.t_ref)
     in1 = _check_detection(s, ev, significance, common["sde_threshold"], table, common, reasons)
     values = _refine_ephemeris(s, ev, in1, reasons)
+    alternative = _few_eclipses(s, ev, alternative, reasons)
     if s.segmented:
         reasons.insert(0, f"long data set: candidates from box least squares summed over segments of "
                           f"{segment_length(s.baseline, s.pmin):.4g}-{segment_length(s.baseline, s.pmax):.4g} d, "
@@ -1022,9 +1027,6 @@ def _period_range(min_period, max_period, baseline: float, n_points: int) -> tup
     """The search range in days; NoEclipseFound when the data are too few or too short for any period."""
     pmin = as_float(min_period, "min_period", u.day, positive=True, allow_none=True)
     pmax = as_float(max_period, "max_period", u.day, positive=True, allow_none=True)
-    if pmax is not None and pmax > baseline:
-        raise InputError(f"`max_period` {pmax} d exceeds the {baseline:.3f} d baseline; "
-                         "at least two eclipses are needed")
     if n_points < MIN_SEARCH_POINTS:
         raise NoEclipseFound(f"only {n_points} points: a period search needs at least {MIN_SEARCH_POINTS}")
     if pmax is None and min_period is None and 0.5 * baseline <= DEFAULT_MIN_PERIOD:
@@ -1238,7 +1240,8 @@ def _check_detection(s: _Setup, ev: dict, significance: float, threshold: float,
     if not ev["snr1"] >= SNR_MIN:
         raise fail(f"no significant periodic eclipse: the best candidate ({ev['period']:.5f} d) has a primary "
                    f"depth of only {ev['snr1']:.1f}σ (< {SNR_MIN:g}σ)")
-    if ev["n_events1"] < 2:
+    one_each = bool(ev["secondary"] and ev["n_events1"] == 1 and ev["n_events2"] >= 1 and s.pmax > s.baseline)
+    if ev["n_events1"] < 2 and not one_each:
         raise fail(f"only one primary eclipse observed at the best candidate ({ev['period']:.5f} d): "
                    "the period is not constrained")
     # eclipse or smooth modulation?  A wave plus free eclipse windows against a smooth Fourier series, by BIC
@@ -1264,6 +1267,24 @@ def _check_detection(s: _Setup, ev: dict, significance: float, threshold: float,
                    f"{detail} (an eclipse needs > {BIC_MARGIN:g})")
     reasons.append(f"eclipse-shaped: {detail}")
     return in1
+
+
+def _few_eclipses(s: _Setup, ev: dict, alternative: float, reasons: list[str]) -> float:
+    """With ``max_period`` beyond the baseline and at most two eclipses seen, warn and flag the answer ambiguous.
+
+    Returns the alternative period (half the chosen one unless another was already named).
+    """
+    if not (s.pmax > s.baseline and ev["n_events1"] + ev["n_events2"] <= 2):
+        return alternative
+    if not math.isfinite(alternative):
+        alternative = 0.5 * ev["period"]
+    message = (f"`max_period` {s.pmax:g} d exceeds the {s.baseline:.4g} d baseline and only "
+               f"{ev['n_events1'] + ev['n_events2']} eclipses are seen: the period {ev['period']:.6f} d is not "
+               f"measured by repeated eclipses (it assumes the secondary at the phase found); ambiguous with "
+               f"{alternative:.6f} d")
+    warnings.warn(message, EclipsekitWarning, stacklevel=3)
+    reasons.append(message)
+    return alternative
 
 
 def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) -> dict[str, float]:
