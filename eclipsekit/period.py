@@ -28,8 +28,10 @@ Stages
 
 from __future__ import annotations
 
+import functools
 import math
 import os
+import sys
 import time as _time
 import warnings
 from concurrent.futures import ThreadPoolExecutor, as_completed
@@ -42,8 +44,10 @@ from astropy.table import Table
 from astropy.timeseries import BoxLeastSquares
 from scipy.optimize import least_squares
 
+from ._eclipse_shape import BIC_MARGIN, N_HARM_SMOOTH, N_HARM_WAVE, eclipse_versus_smooth
 from ._grid import Q_MAX, bin_in_time, frequency_grid, grid_size, min_duty_cycle, period_bands, trial_durations
 from ._pdm import pdm_theta
+from ._segments import segment_length, segmented_bls
 from ._validate import as_float
 from ._threads import one_blas_thread
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
@@ -90,6 +94,19 @@ N_PEAKS_PDM = 3
 DEFAULT_MIN_PERIOD = 0.25
 #: Fewest points a period search works with (as :data:`eclipsekit.data.MIN_POINTS`).
 MIN_SEARCH_POINTS = 20
+#: Above this many (point x trial period) pairs of the coherent grid (a search of minutes), the coarse
+#: box-least-squares search runs on segments of the baseline (:mod:`eclipsekit._segments`) and proposes
+#: candidates that are refined on the full data; PDM is then evaluated at the candidates only.
+SEGMENT_WORK = 1e10
+#: Grid density and box-least-squares phase oversampling of that coarse pass (the refinement restores
+#: the full ``oversample``).
+SEGMENT_OVERSAMPLE = 2.0
+#: Peaks per band of the segmented periodogram (its sums are not comparable across bands, whose
+#: segments differ in length), and how many refined candidates are folded in full.
+SEGMENT_PEAKS_PER_BAND = 2
+SEGMENT_FOLDS = 8
+#: Trial periods of the coherent reference sample behind the significance of a segmented search.
+SDE_SAMPLE = 1000
 #: Largest trial grid: 1e7 periods (a default search over a 10-year, 3,650 d baseline has
 #: ~2e6).  Beyond it a search takes hours; the caller is asked to narrow the range.
 MAX_TRIAL_PERIODS = 1e7
@@ -234,7 +251,7 @@ class PeriodSearch:
             return {"value": num(value), "uncertainty": None if err is None else num(err), "unit": unit}
 
         out = {
-            "status": "ok" if self.found else "no_eclipse_found",
+            "status": ("ambiguous" if self.ambiguous else "ok") if self.found else "no_eclipse_found",
             "period": q(self.period, self.period_err, "d"),
             "t0": q(self.t0, self.t0_err, "d"),
             "depth_primary": q(self.depth_primary, self.depth_primary_err, ""),
@@ -352,9 +369,10 @@ def _make_bands(t, y, dy, freq, *, binned=True) -> list[_Band]:
 
 
 def _periodograms(bands, freq, *, do_bls, do_pdm, n_jobs, progress):
-    """Run both coarse periodograms over all bands on a thread pool; returns (power, duration, theta)."""
-    from tqdm import tqdm
+    """Run both coarse periodograms over all bands on a thread pool; returns (power, duration, theta).
 
+    ``progress`` is accepted for compatibility; progress is shown per stage by :func:`find_period`.
+    """
     power = np.full(freq.size, np.nan)
     dur = np.full(freq.size, np.nan)
     theta = np.full(freq.size, np.nan)
@@ -380,8 +398,7 @@ def _periodograms(bands, freq, *, do_bls, do_pdm, n_jobs, progress):
             return _bls_chunk(b.t, b.y, b.dy, 1.0 / freq[ii], b.durations)
         return pdm_theta(b.t - b.t[0], b.y, freq[ii], n_bins=b.n_bins, n_covers=2)
 
-    with ThreadPoolExecutor(max(1, n_jobs)) as ex, \
-            tqdm(total=len(tasks), disable=not progress, desc="period search", unit="chunk", leave=False) as bar:
+    with ThreadPoolExecutor(max(1, n_jobs)) as ex:
         futs = {ex.submit(run, task): task for task in tasks}
         for fut in as_completed(futs):
             kind, b, ii = futs[fut]
@@ -389,7 +406,6 @@ def _periodograms(bands, freq, *, do_bls, do_pdm, n_jobs, progress):
                 power[ii], dur[ii] = fut.result()
             else:
                 theta[ii] = fut.result()
-            bar.update(1)
     return power, dur, theta
 
 
@@ -523,22 +539,6 @@ def _secondary_scan(ph, y, w, q1, exclude_half):
         if snr[j] > best[0]:
             best = (float(snr[j]), float(c[j]), float(q), float(depth[j]), float(err[j]))
     return best
-
-
-def _fourier_dchi2(t, y, w, period, n_harm=2):
-    """Δχ² of a weighted Fourier series (``n_harm`` harmonics) at ``period`` over a constant, and residuals."""
-    x = 2 * np.pi * t / period
-    cols = [np.ones_like(t)]
-    for k in range(1, n_harm + 1):
-        cols += [np.cos(k * x), np.sin(k * x)]
-    a = np.column_stack(cols)
-    sw = np.sqrt(w)
-    coef, *_ = np.linalg.lstsq(a * sw[:, None], y * sw, rcond=None)
-    model = a @ coef
-    ybar = np.dot(w, y) / w.sum()
-    chi_const = float(np.dot(w, (y - ybar) ** 2))
-    chi_model = float(np.dot(w, (y - model) ** 2))
-    return chi_const - chi_model, y - model + coef[0]
 
 
 def _odd_even(ph, y, w, epoch, half, ref, n_template=24):
@@ -778,7 +778,10 @@ def _follow_doublings(evals: list[dict], best: int, tol: float, reasons: list[st
                 seen.add(j)
                 continue
             if j is None:
-                reasons.append(f"odd/even depths differ by {oe:.1f}σ but 2P is outside the search range")
+                # the period at which the two depths are consistent is 2P: say so and flag the answer
+                alternative = 2.0 * ev["period"]
+                reasons.append(f"odd/even depths differ by {oe:.1f}σ but 2P = {alternative:.6f} d is outside the "
+                               f"search range: ambiguous, the true period is probably 2P (search longer periods)")
             else:
                 reasons.append(f"odd/even depths differ by {oe:.1f}σ but 2P folds worse "
                                f"(Δχ² {evals[j]['dchi2']:.1f} vs {ev['dchi2']:.1f}): kept")
@@ -849,8 +852,9 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         Normalised light curve (``time`` in days, ``flux`` ~1 out of eclipse, ``flux_err``).
     min_period, max_period : float or Quantity, optional
         Search range in days.  Defaults: 0.25 d and half the baseline (so that
-        at least two primary eclipses can fall in the data); ``max_period`` may be
-        at most the baseline.
+        at least two primary eclipses can fall in the data).  A ``max_period``
+        beyond the baseline is allowed: an answer resting on one primary and one
+        secondary eclipse then comes with a warning and is flagged ambiguous.
     oversample : float, optional
         Grid density: the phase drift over the baseline between neighbouring trial
         periods is ``1/oversample`` of the narrowest eclipse considered.
@@ -859,7 +863,8 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
     n_jobs : int, optional
         Threads for the periodograms (default: all CPU cores).
     progress : bool, optional
-        Show a tqdm progress bar over grid chunks.
+        Show a tqdm progress bar over the stages (coarse search, refinement, candidates), on a
+        terminal only.
 
     Returns
     -------
@@ -893,11 +898,19 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         raise InputError(f"`method` must be one of {sorted(_METHODS)}, got {method!r}")
     s = _setup(lc, min_period, max_period, oversample, method, n_jobs)
     timings: dict[str, float] = {}
-    freq, bands, power, theta = _coarse_periodograms(s, progress, timings)
-    clock = _time.perf_counter()
-    proposed, sde_bls, sde_pdm, daily = _propose_candidates(s, freq, power, theta, bands)
-    evals = _evaluate_candidates(s, proposed)
-    timings["candidates"] = _time.perf_counter() - clock
+    with _Stages(progress, 3 if s.segmented else 2) as stages:
+        stages.next("coarse search (segments)" if s.segmented else "coarse search")
+        freq, bands, power, theta = _coarse_periodograms(s, timings)
+        clock = _time.perf_counter()
+        proposed, sde_bls, sde_pdm, daily = _propose_candidates(s, freq, power, theta, bands)
+        if s.segmented:
+            stages.next("refine on the full data")
+            proposed, sde_bls = _refine_segmented(s, proposed, bands)
+            timings["refine"] = _time.perf_counter() - clock
+            clock = _time.perf_counter()
+        stages.next("evaluate candidates")
+        evals = _evaluate_candidates(s, proposed)
+        timings["candidates"] = _time.perf_counter() - clock
     significance = sde_bls if s.do_bls else sde_pdm
     common = _search_fields(s, freq, power, theta, significance, sde_pdm, daily, timings)
     if not evals:
@@ -910,6 +923,11 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
     table = _table(evals, best, s.t_ref)
     in1 = _check_detection(s, ev, significance, common["sde_threshold"], table, common, reasons)
     values = _refine_ephemeris(s, ev, in1, reasons)
+    alternative = _few_eclipses(s, ev, alternative, reasons)
+    if s.segmented:
+        reasons.insert(0, f"long data set: candidates from box least squares summed over segments of "
+                          f"{segment_length(s.baseline, s.pmin):.4g}-{segment_length(s.baseline, s.pmax):.4g} d, "
+                          f"refined on the full data (PDM at the candidates only)")
     timings["refinement"] = _time.perf_counter() - clock
     return PeriodSearch(
         **values, significance=float(significance), reasoning="; ".join(reasons) + ".", candidates=table,
@@ -917,6 +935,31 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         odd_even_sigma=float(ev["odd_even_sigma"]), alternative_period=float(alternative),
         ambiguous=bool(np.isfinite(alternative)), n_eclipses_primary=int(ev["n_events1"]),
         n_eclipses_secondary=int(ev["n_events2"]), **common)
+
+
+class _Stages:
+    """A progress bar over the search's stages (not its chunks), shown only on a terminal."""
+
+    def __init__(self, progress: bool, n_stages: int):
+        self.show = bool(progress) and sys.stderr.isatty()
+        self.n_stages = n_stages
+        self.bar = None
+
+    def __enter__(self) -> "_Stages":
+        if self.show:
+            from tqdm import tqdm
+
+            self.bar = tqdm(total=self.n_stages, desc="period search", unit="stage", leave=False)
+        return self
+
+    def next(self, name: str) -> None:
+        if self.bar is not None:
+            self.bar.set_description(f"period search: {name}")
+            self.bar.update(1)
+
+    def __exit__(self, *exc: Any) -> None:
+        if self.bar is not None:
+            self.bar.close()
 
 
 @dataclass(frozen=True, eq=False)
@@ -935,6 +978,7 @@ class _Setup:
     oversample: float
     n_jobs: int
     method: str
+    segmented: bool = False
 
     @property
     def do_bls(self) -> bool:
@@ -972,17 +1016,17 @@ def _setup(lc, min_period, max_period, oversample, method, n_jobs) -> _Setup:
                          "`max_period` or `oversample`")
     _check_variation(y, dy)
     t_ref = float(t_abs[0])
+    # a long data set is searched on segments first (see SEGMENT_WORK); PDM alone keeps the coherent grid
+    segmented = method != "pdm" and n_grid * t_abs.size > SEGMENT_WORK
     return _Setup(t_abs=t_abs, t=t_abs - t_ref, y=y, dy=dy, w=1.0 / dy ** 2, t_ref=t_ref, baseline=baseline,
-                  pmin=pmin, pmax=pmax, oversample=oversample, n_jobs=int(n_jobs), method=method)
+                  pmin=pmin, pmax=pmax, oversample=oversample, n_jobs=int(n_jobs), method=method,
+                  segmented=segmented)
 
 
 def _period_range(min_period, max_period, baseline: float, n_points: int) -> tuple[float, float]:
     """The search range in days; NoEclipseFound when the data are too few or too short for any period."""
     pmin = as_float(min_period, "min_period", u.day, positive=True, allow_none=True)
     pmax = as_float(max_period, "max_period", u.day, positive=True, allow_none=True)
-    if pmax is not None and pmax > baseline:
-        raise InputError(f"`max_period` {pmax} d exceeds the {baseline:.3f} d baseline; "
-                         "at least two eclipses are needed")
     if n_points < MIN_SEARCH_POINTS:
         raise NoEclipseFound(f"only {n_points} points: a period search needs at least {MIN_SEARCH_POINTS}")
     if pmax is None and min_period is None and 0.5 * baseline <= DEFAULT_MIN_PERIOD:
@@ -1012,17 +1056,82 @@ def _check_variation(y: np.ndarray, dy: np.ndarray) -> None:
                              f"of at most {best:.2g}σ (< {SNR_MIN:g}σ needed)")
 
 
-def _coarse_periodograms(s: _Setup, progress: bool, timings: dict[str, float]):
-    """Stages 1-2: the grid, the binned data per band, and both periodograms over the grid."""
+def _coarse_periodograms(s: _Setup, timings: dict[str, float]):
+    """Stages 1-2: the grid, the binned data per band, and both periodograms over the grid.
+
+    A segmented search (``s.segmented``) returns the per-band segments in place of ``bands``
+    and no PDM periodogram (θ NaN).
+    """
     clock = _time.perf_counter()
+    if s.segmented:
+        freq, power, bands = segmented_bls(s.t, s.y, s.dy, s.pmin, s.pmax, s.baseline, SEGMENT_OVERSAMPLE,
+                                           functools.partial(_bls_chunk, oversample=int(SEGMENT_OVERSAMPLE)),
+                                           n_jobs=s.n_jobs)
+        timings["periodograms"] = _time.perf_counter() - clock
+        return freq, bands, power, np.full(freq.size, np.nan)
     freq = frequency_grid(s.pmin, s.pmax, s.baseline, s.oversample)
     bands = _make_bands(s.t, s.y, s.dy, freq)
     timings["grid"] = _time.perf_counter() - clock
     clock = _time.perf_counter()
     power, _, theta = _periodograms(bands, freq, do_bls=s.do_bls, do_pdm=s.do_pdm, n_jobs=s.n_jobs,
-                                    progress=progress)
+                                    progress=False)
     timings["periodograms"] = _time.perf_counter() - clock
     return freq, bands, power, theta
+
+
+def _segment_peaks(freq, power, bands) -> list[tuple[float, str]]:
+    """Candidates of a segmented search: the strongest peaks overall and in each band."""
+    out = [(1.0 / freq[i], f"BLS peak {k + 1}") for k, i in enumerate(_top_peaks(freq, power, N_PEAKS_BLS))]
+    for sl, p_lo, p_hi, _ in bands:
+        for k, i in enumerate(_top_peaks(freq[sl], power[sl], SEGMENT_PEAKS_PER_BAND)):
+            out.append((1.0 / freq[sl][i], f"BLS peak {k + 1} of {p_lo:.3g}-{p_hi:.3g} d"))
+    return out
+
+
+def _coherent_bls(s: _Setup, periods: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Box-least-squares power of the full data (binned per period band as the coherent search) at ``periods``."""
+    power = np.full(periods.size, np.nan)
+    dur = np.full(periods.size, np.nan)
+    edges = [s.pmax]
+    while edges[-1] / 2.0 > s.pmin * 1.0001:
+        edges.append(edges[-1] / 2.0)
+    edges.append(s.pmin)
+    for p_hi, p_lo in zip(edges[:-1], edges[1:]):
+        sel = (periods >= p_lo * 0.999) & (periods <= p_hi * 1.001) & np.isnan(power)
+        if not sel.any():
+            continue
+        width = float(min_duty_cycle(p_lo) * p_lo) / BINS_PER_ECLIPSE
+        tb, yb, eb = bin_in_time(s.t, s.y, s.dy, width)
+        power[sel], dur[sel] = _bls_power_threaded(tb, yb, eb, periods[sel], trial_durations(p_lo, p_hi),
+                                                   n_jobs=s.n_jobs, chunk=max(1, int(sel.sum()) // s.n_jobs + 1))
+    return power, dur
+
+
+def _refine_segmented(s: _Setup, proposed: list[tuple[float, str]], bands) -> tuple[list[tuple[float, str]], float]:
+    """Bring the candidates of a segmented search to the coherent grid; returns the strongest
+    :data:`SEGMENT_FOLDS` of them and the significance (SDE) of the best.
+
+    Each candidate is searched on the coherent grid (the full baseline's step) over ±1.5 steps of
+    its segment grid.  The SDE compares the best coherent power with the median and spread of the
+    coherent power at :data:`SDE_SAMPLE` random trial periods (the statistic calibrated for the
+    coherent search; the maximum is taken over the candidates only, so it can only be lower).
+    """
+    refined = []
+    for p, label in proposed:
+        seg = next((b[3] for b in bands if b[1] * 0.999 <= p <= b[2] * 1.001), s.baseline)
+        q = float(min_duty_cycle(p))
+        half = 1.5 * q / (SEGMENT_OVERSAMPLE * seg)
+        f = np.arange(1.0 / p - half, 1.0 / p + half, q / (s.oversample * s.baseline))
+        pw, _ = _coherent_bls(s, 1.0 / f[f > 0])
+        i = int(np.nanargmax(pw))
+        refined.append((float(pw[i]), 1.0 / f[f > 0][i], label))
+    refined.sort(key=lambda r: -r[0])
+    rng = np.random.default_rng(0)  # a fixed sample: repeated searches give the same answer
+    sample = 1.0 / rng.uniform(1.0 / s.pmax, 1.0 / s.pmin, SDE_SAMPLE)
+    ref, _ = _coherent_bls(s, sample)
+    best = refined[0][0]
+    sde = _sde(np.append(ref, best), best)
+    return [(p, label) for _, p, label in refined[:SEGMENT_FOLDS]], sde
 
 
 def _propose_candidates(s: _Setup, freq, power, theta, bands):
@@ -1034,13 +1143,15 @@ def _propose_candidates(s: _Setup, freq, power, theta, bands):
     daily = bool(window > 0.5)
     base: list[tuple[float, str]] = []
     sde_bls = sde_pdm = math.nan
-    if s.do_bls:
+    if s.segmented:
+        base = _segment_peaks(freq, power, bands)
+    elif s.do_bls:
         peaks = _top_peaks(freq, power, N_PEAKS_BLS)
         if not peaks:
             raise NoEclipseFound("the box-least-squares periodogram has no finite value: no eclipse")
         sde_bls = _sde(power, power[peaks[0]])
         base += [(1.0 / freq[i], f"BLS peak {k + 1}") for k, i in enumerate(peaks)]
-    if s.do_pdm:
+    if s.do_pdm and not s.segmented:
         # θ's noise scatter depends on points per bin, which changes from band to band:
         # standardise per band (robustly) before comparing minima across the grid
         # candidates from the deepest θ; significance in robust σ of θ's band at that minimum
@@ -1097,8 +1208,8 @@ def _search_fields(s: _Setup, freq, power, theta, significance, sde_pdm, daily, 
     periods_sorted = (1.0 / freq)[::-1]
     return dict(bls_periods=periods_sorted if s.do_bls else np.empty(0),
                 bls_power=power[::-1] if s.do_bls else np.empty(0),
-                pdm_periods=periods_sorted if s.do_pdm else np.empty(0),
-                pdm_theta=theta[::-1] if s.do_pdm else np.empty(0),
+                pdm_periods=periods_sorted if s.do_pdm and not s.segmented else np.empty(0),
+                pdm_theta=theta[::-1] if s.do_pdm and not s.segmented else np.empty(0),
                 sde_threshold=SDE_THRESHOLD if s.do_bls else PDM_SDE_THRESHOLD, pdm_significance=sde_pdm,
                 method=s.method, min_period=s.pmin, max_period=s.pmax, oversample=s.oversample,
                 n_periods=int(freq.size), daily_window=daily, timings=timings)
@@ -1129,28 +1240,51 @@ def _check_detection(s: _Setup, ev: dict, significance: float, threshold: float,
     if not ev["snr1"] >= SNR_MIN:
         raise fail(f"no significant periodic eclipse: the best candidate ({ev['period']:.5f} d) has a primary "
                    f"depth of only {ev['snr1']:.1f}σ (< {SNR_MIN:g}σ)")
-    if ev["n_events1"] < 2:
+    one_each = bool(ev["secondary"] and ev["n_events1"] == 1 and ev["n_events2"] >= 1 and s.pmax > s.baseline)
+    if ev["n_events1"] < 2 and not one_each:
         raise fail(f"only one primary eclipse observed at the best candidate ({ev['period']:.5f} d): "
                    "the period is not constrained")
-    # eclipse or smooth modulation?  Fit a 2-harmonic sinusoid at P, then the primary box on the residuals.
+    # eclipse or smooth modulation?  A wave plus free eclipse windows against a smooth Fourier series, by BIC
     t, w = s.t, s.w
-    dchi_sin, resid = _fourier_dchi2(t, s.y, w, ev["period"])
-    ph = orbital_phase(t, ev["period"], ev["t0"], -0.5)
-    in1 = np.abs(ph) < 0.5 * ev["duration"] / ev["period"]
-    ref = np.abs(ph) >= max(0.5 * ev["extent1"], 0.75 * ev["duration"]) / ev["period"]
-    dr, er = _box_depth(resid, w, in1, ref)
-    box_resid = (dr / er) ** 2 if (np.isfinite(dr) and dr > 0) else 0.0
-    # an eclipse keeps most of its box signal after a smooth fit is removed; spot modulation
-    # does not (its "dip" is the sinusoid's minimum): ≥ 4σ left, ≥ 20% of the sinusoid's
-    # Δχ² and ≥ 25% of the box's own Δχ² before the sinusoid was removed
-    need = max(16.0, 0.2 * dchi_sin, 0.25 * ev["snr1"] ** 2)
-    if box_resid < need:
-        raise fail(f"the periodic signal at {ev['period']:.5f} d is smooth modulation (e.g. spots), not an "
-                   f"eclipse: a 2-harmonic sinusoid explains Δχ² {dchi_sin:.1f}, and a box on its residuals only "
-                   f"{box_resid:.1f} (needs ≥ {need:.1f})")
-    reasons.append(f"eclipse-shaped: box on the residuals of a 2-harmonic sinusoid still gives Δχ² "
-                   f"{box_resid:.1f} (sinusoid {dchi_sin:.1f})")
+    P = ev["period"]
+    ph = orbital_phase(t, P, ev["t0"], -0.5)
+    q1 = ev["duration"] / P
+    in1 = np.abs(ph) < 0.5 * q1
+    half1 = 0.5 * ev["extent1"] / P + q1 / 8
+    phase2 = half2 = math.nan
+    if ev["secondary"]:
+        q2 = ev["width2"] / P
+        phase2 = ev["phase2"]
+        d2 = orbital_phase(t, P, ev["t0"] + phase2 * P, -0.5)
+        half2 = _dip_extent(d2, s.y, w, q2) + q2 / 8
+    cmp = eclipse_versus_smooth(t, s.y, w, P, ev["t0"], half1, phase2=phase2, half2=half2,
+                                duration=ev["duration"])
+    detail = (f"{N_HARM_WAVE}-harmonic wave + eclipse windows χ² {cmp['chi2_eclipse']:.1f} "
+              f"({cmp['n_eclipse']} parameters) vs {N_HARM_SMOOTH}-harmonic series χ² {cmp['chi2_smooth']:.1f} "
+              f"({cmp['n_smooth']}), scaled by {cmp['scale']:.2f} × β² ({cmp['beta']:.2f}²): ΔBIC {cmp['delta_bic']:.1f}")
+    if not cmp["delta_bic"] > BIC_MARGIN:
+        raise fail(f"the periodic signal at {P:.5f} d is smooth modulation (e.g. spots), not an eclipse: "
+                   f"{detail} (an eclipse needs > {BIC_MARGIN:g})")
+    reasons.append(f"eclipse-shaped: {detail}")
     return in1
+
+
+def _few_eclipses(s: _Setup, ev: dict, alternative: float, reasons: list[str]) -> float:
+    """With ``max_period`` beyond the baseline and at most two eclipses seen, warn and flag the answer ambiguous.
+
+    Returns the alternative period (half the chosen one unless another was already named).
+    """
+    if not (s.pmax > s.baseline and ev["n_events1"] + ev["n_events2"] <= 2):
+        return alternative
+    if not math.isfinite(alternative):
+        alternative = 0.5 * ev["period"]
+    message = (f"`max_period` {s.pmax:g} d exceeds the {s.baseline:.4g} d baseline and only "
+               f"{ev['n_events1'] + ev['n_events2']} eclipses are seen: the period {ev['period']:.6f} d is not "
+               f"measured by repeated eclipses (it assumes the secondary at the phase found); ambiguous with "
+               f"{alternative:.6f} d")
+    warnings.warn(message, EclipsekitWarning, stacklevel=3)
+    reasons.append(message)
+    return alternative
 
 
 def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) -> dict[str, float]:

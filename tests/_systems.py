@@ -77,3 +77,111 @@ def light_curve_arrays(name: str, seed: int, n_orbits: int = 5, *, n_r: int = 20
     rng = np.random.default_rng(seed)
     sigma = NOISE[name]
     return t, f + rng.normal(0.0, sigma, t.size), np.full(t.size, sigma)
+
+
+# ------------------------------------------------------------------------------------------
+# Long-cadence (30-minute) analogues of real survey light curves: spots, correlated noise,
+# multi-year baselines.  Eclipses from the brute-force reference; the spot waves and the noise
+# are written here (sinusoids at the rotation period with slowly changing amplitudes; AR(1)).
+# ------------------------------------------------------------------------------------------
+LONG_CADENCE = 30.0 / 1440  # days
+
+LONG_SYSTEMS: dict[str, dict] = {
+    # young M-dwarf pair, P ~ 0.86 d: wide V-shaped partial eclipses (half-depth width ~8%, box ~12% of the period), about 35% and 18% deep
+    "spotted-short": dict(period=0.8613, t0=0.3172, radius_sum=0.50, radius_ratio=0.92, inclination=79.0,
+                          surface_brightness_ratio=0.50, ld_law="quadratic", ld_primary=(0.35, 0.30),
+                          ld_secondary=(0.36, 0.30)),
+    # eccentric red-giant-like pair, P = 8208 cadences of 30 min = 171 d: eclipses of different widths
+    "eccentric-long": dict(period=8208 * LONG_CADENCE, t0=53.27, radius_sum=0.075, radius_ratio=0.80,
+                           inclination=89.6, surface_brightness_ratio=0.75, eccentricity=0.35, omega=40.0,
+                           ld_law="quadratic", ld_primary=(0.55, 0.18), ld_secondary=(0.55, 0.18)),
+}
+
+
+def long_truth(name: str) -> dict[str, float]:
+    """True period, t0, e cos w and e sin w of a system of ``LONG_SYSTEMS`` (from its definition)."""
+    s = LONG_SYSTEMS[name]
+    e, w = s.get("eccentricity", 0.0), np.radians(s.get("omega", 90.0))
+    return dict(period=s["period"], t0=s["t0"], ecosw=e * np.cos(w), esinw=e * np.sin(w))
+
+
+def ar1_noise(rng: np.random.Generator, n: int, sigma: float, rho: float) -> np.ndarray:
+    """Stationary AR(1) noise of standard deviation ``sigma`` and lag-one correlation ``rho`` (per point)."""
+    white = rng.normal(0.0, sigma * np.sqrt(1.0 - rho * rho), n)
+    out = np.empty(n)
+    out[0] = rng.normal(0.0, sigma)
+    for i in range(1, n):
+        out[i] = rho * out[i - 1] + white[i]
+    return out
+
+
+def spot_wave(t: np.ndarray, period: float, amplitude: float, rng: np.random.Generator, *,
+              n_harm: int = 2, evolution: float = 20.0) -> np.ndarray:
+    """Relative flux of a spot wave: a fundamental and ``n_harm - 1`` harmonics at ``period`` whose
+    amplitudes wander slowly (timescale ``evolution`` days, up to +-30%) and whose phases drift a little."""
+    out = np.zeros_like(t)
+    for k in range(1, n_harm + 1):
+        a = amplitude / k ** 1.5
+        slow = 1.0 + 0.3 * np.sin(2 * np.pi * t / (evolution * (1 + 0.3 * k)) + rng.uniform(0, 2 * np.pi))
+        phase = rng.uniform(0, 2 * np.pi) + 0.2 * np.sin(2 * np.pi * t / (1.7 * evolution))
+        out += a * slow * np.cos(2 * np.pi * k * t / period + phase)
+    return out
+
+
+def _gapped_long_cadence(start: float, span: float, n: int, gap_every: float, gap_length: float) -> np.ndarray:
+    """Regular 30-min slots from ``start`` over ``span`` days with a gap of ``gap_length`` d every ``gap_every``
+    days (data downlinks), thinned evenly to ``n`` points when more are left."""
+    slots = start + np.arange(int(span / LONG_CADENCE) + 1) * LONG_CADENCE
+    keep = np.mod(slots - start, gap_every) < gap_every - gap_length
+    slots = slots[keep]
+    if slots.size > n:
+        slots = slots[np.round(np.linspace(0, slots.size - 1, n)).astype(int)]
+    return slots
+
+
+def spotted_binary_arrays(seed: int, *, span: float = 27.0, sigma: float = 2e-3, rho: float = 0.6,
+                          spot_amplitude: float = 0.04, n_r: int = 120, n_theta: int = 240):
+    """The spotted short-period binary at 30-minute cadence: brute-force eclipses times a spot wave at
+    the (synchronised) orbital period, plus AR(1) noise.  Returns ``(time, flux, flux_err)``."""
+    s = LONG_SYSTEMS["spotted-short"]
+    t = _gapped_long_cadence(0.0, span, 10 ** 9, 13.7, 1.0)
+    f = brute_force_flux(t, n_r=n_r, n_theta=n_theta, **s)
+    rng = np.random.default_rng(seed)
+    f = f * (1.0 + spot_wave(t, s["period"], spot_amplitude / 2, rng))  # 4% peak to peak
+    return t, f + ar1_noise(rng, t.size, sigma, rho), np.full(t.size, sigma)
+
+
+def spotted_star_arrays(seed: int, *, period: float = 2.37, span: float = 27.0, sigma: float = 1e-3,
+                        rho: float = 0.6):
+    """A spotted single star, no eclipse: two spots at different longitudes, each seen as a
+    foreshortened, limb-darkened area (``mu (1 - 0.6 (1 - mu))`` with ``mu = max(cos(phase), 0)``,
+    so the minima are sharper than a sinusoid), amplitudes wandering slowly, plus AR(1) noise."""
+    t = _gapped_long_cadence(0.0, span, 10 ** 9, 13.7, 1.0)
+    rng = np.random.default_rng(seed)
+    flux = np.ones_like(t)
+    for depth, longitude, tau in ((0.03, 0.0, 23.0), (0.018, 2.2, 31.0)):
+        mu = np.maximum(np.cos(2 * np.pi * t / period - longitude), 0.0)
+        slow = 1.0 + 0.25 * np.sin(2 * np.pi * t / tau + rng.uniform(0, 2 * np.pi))
+        flux -= depth * slow * mu * (1 - 0.6 * (1 - mu))
+    return t, flux + ar1_noise(rng, t.size, sigma, rho), np.full(t.size, sigma)
+
+
+@lru_cache(maxsize=None)
+def _one_long_orbit(name: str, n_r: int, n_theta: int) -> tuple[np.ndarray, np.ndarray]:
+    s = LONG_SYSTEMS[name]
+    n = int(round(s["period"] / LONG_CADENCE))
+    phase_slots = np.arange(n) * LONG_CADENCE
+    return phase_slots, brute_force_flux(phase_slots, n_r=n_r, n_theta=n_theta, **s)
+
+
+def eccentric_long_arrays(seed: int, *, span: float = 1470.0, n_points: int = 65_000, sigma: float = 4e-4,
+                          rho: float = 0.3, n_r: int = 120, n_theta: int = 240):
+    """The four-year eccentric pair at 30-minute cadence: ``n_points`` over ``span`` days, a 3-day gap
+    every 93 days, brute-force eclipses (one orbit computed, repeated: the cadence divides the period)
+    and AR(1) noise.  Returns ``(time, flux, flux_err)``."""
+    s = LONG_SYSTEMS[name := "eccentric-long"]
+    slots, f1 = _one_long_orbit(name, n_r, n_theta)
+    t = _gapped_long_cadence(0.0, span, n_points, 93.0, 3.0)
+    index = np.round(np.mod(t, s["period"]) / LONG_CADENCE).astype(int) % slots.size
+    rng = np.random.default_rng(seed)
+    return t, f1[index] + ar1_noise(rng, t.size, sigma, rho), np.full(t.size, sigma)
