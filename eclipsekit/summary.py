@@ -104,6 +104,8 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
     '12346'
     >>> format_value(3.14159265358979, None, digits=11)
     '3.1415926536'
+    >>> format_value(0.26, 0.0996)
+    '0.26 ± 0.10'
     >>> format_value(0.312, 0.02, interval=(0.301, 0.345))
     '0.312 +0.033/-0.011'
     """
@@ -129,8 +131,15 @@ def has_uncertainty(value: float, uncertainty: float | None) -> bool:
 
 
 def _decimals(uncertainty: float) -> int:
-    """Decimal places that show ``uncertainty`` to two significant figures (at most 12)."""
-    return min(max(0, 1 - int(math.floor(math.log10(uncertainty)))), 12)
+    """Decimal places that show ``uncertainty`` to two significant figures (at most 12).
+
+    Rounding can carry into the next decade (0.0996 -> 0.100): then one place fewer (0.10).
+    """
+    decimals = min(max(0, 1 - int(math.floor(math.log10(uncertainty)))), 12)
+    rounded = round(uncertainty, decimals)
+    if decimals > 0 and rounded > 0 and 1 - int(math.floor(math.log10(rounded))) < decimals:
+        decimals -= 1
+    return decimals
 
 
 #: significant figures of a value held fixed: enough to show the value given
