@@ -300,7 +300,7 @@ def _harmonics_by_bic(t: np.ndarray, r: np.ndarray, err: np.ndarray, period: flo
     # adopt extra harmonics only when they beat none by DELTA_BIC
     if h_best > 0 and least == 0 and bic[0] - bic[h_best] < DELTA_BIC:
         h_best = 0
-    return h_best, bic
+    return h_best, bic, chi2[h_best] / max(1, n - 2 - 2 * h_best)
 
 
 def choose_baseline(time: np.ndarray, rel_resid: np.ndarray, rel_err: np.ndarray, period: float, t_ref: float,
@@ -323,7 +323,8 @@ def choose_baseline(time: np.ndarray, rel_resid: np.ndarray, rel_err: np.ndarray
     -------
     dict
         ``kind`` ("polynomial", "fourier" or "gp"), ``harmonics``, ``hyper`` (GP start or
-        None), ``delta_bic_harmonics``, ``delta_bic_gp`` and a one-line ``note``.
+        None), ``delta_bic_harmonics``, ``delta_bic_gp``, ``redchi_out`` (reduced chi-square
+        of the residuals about the chosen harmonics, over ``n_out`` points) and a one-line ``note``.
 
     Notes
     -----
@@ -334,7 +335,7 @@ def choose_baseline(time: np.ndarray, rel_resid: np.ndarray, rel_err: np.ndarray
        is adopted when its BIC is lower by more than 10 (3 extra parameters).
     """
     n = rel_resid.size
-    h, bic = _harmonics_by_bic(time, rel_resid, rel_err, period, t_ref, 1 if forced == "fourier" else 0)
+    h, bic, redchi_out = _harmonics_by_bic(time, rel_resid, rel_err, period, t_ref, 1 if forced == "fourier" else 0)
     X = np.column_stack([np.ones(n), fourier_columns(time, period, t_ref, h)])
     w = 1 / rel_err ** 2
     coef = np.linalg.lstsq(X * np.sqrt(w)[:, None], rel_resid * np.sqrt(w), rcond=None)[0]
@@ -359,5 +360,6 @@ def choose_baseline(time: np.ndarray, rel_resid: np.ndarray, rel_err: np.ndarray
                     "hyperparameters fitted)") if h else "polynomial per segment + Gaussian process (SHO kernel, "
                                                           "hyperparameters fitted)"}[kind]
     return {"kind": kind, "harmonics": h, "hyper": hyper if kind == "gp" else None,
-            "delta_bic_harmonics": float(d_h), "delta_bic_gp": float(d_gp),
+            "delta_bic_harmonics": float(d_h), "delta_bic_gp": float(d_gp), "redchi_out": float(redchi_out),
+            "n_out": int(n),
             "note": f"baseline: {label}, {how} ({why}); it multiplies the eclipse model"}

@@ -119,12 +119,31 @@ def resolve_baseline(lc: LightCurve, initial: InitialParameters, sol: LeastSquar
                            "Q": 1.0}
     settings = dataclasses.replace(settings, baseline=choice["kind"], harmonics=choice["harmonics"],
                                    gp_start=choice["hyper"])
-    if choice["kind"] != "polynomial":
+    scale = error_scale(choice)
+    if scale != 1.0:
+        # the priors (limb darkening, the user's) weigh against the data through the errors: scale them before
+        # fitting, not only the covariance after
+        lc = dataclasses.replace(lc, flux_err=lc.flux_err * scale)
+    if choice["kind"] != "polynomial" or scale != 1.0:
         sol = solve(lc, initial, settings)
+        sol.diagnostics["input_error_scale"] = scale
         if "gp_hyperparameters" in sol.diagnostics:  # refits (checks) start from the fitted kernel
             settings = dataclasses.replace(settings, gp_start=dict(sol.diagnostics["gp_hyperparameters"]))
     sol.diagnostics["baseline"] = {k: v for k, v in choice.items() if k != "hyper"}
     return sol, settings
+
+
+def error_scale(choice: dict[str, Any]) -> float:
+    """Factor for the quoted errors: sqrt of the out-of-eclipse reduced chi-square when it is not 1.
+
+    Not 1 when it differs from 1 by more than 3 times its sampling scatter, sqrt(2/n) for
+    n points (chi-square distribution).  Under a GP baseline the fitted jitter takes
+    excess scatter instead, and errors are left as quoted.
+    """
+    rc, n = choice.get("redchi_out"), choice.get("n_out", 0)
+    if choice["kind"] == "gp" or rc is None or not n or abs(rc - 1.0) <= 3 * np.sqrt(2.0 / n):
+        return 1.0
+    return float(np.sqrt(rc))
 
 
 def baseline_notes(sol: LeastSquaresSolution, settings: FitSettings) -> list[str]:
@@ -140,6 +159,13 @@ def baseline_notes(sol: LeastSquaresSolution, settings: FitSettings) -> list[str
                      f"quadrature to the quoted errors (GP amplitude {hyper['sigma'] * 1e6:.0f} ppm, timescale "
                      f"{hyper['rho']:.3f} d, quality factor {hyper['Q']:.2f}); errors not otherwise scaled")
         sol.diagnostics["noise_model"] = {"kind": "jitter", "jitter": hyper["jitter"]}
+        return notes
+    given = float(sol.diagnostics.get("input_error_scale", 1.0))
+    if given != 1.0:
+        notes.append(f"noise model: the quoted errors are scaled by {given:.3f} before the fit (the out-of-eclipse "
+                     f"residuals scatter {given:.3f}x more than they say); then scaled by sqrt(reduced chi-square) "
+                     f"= {np.sqrt(sol.redchi_fit):.3f} for the uncertainties")
+        sol.diagnostics["noise_model"] = {"kind": "scaled", "error_scale": given * float(np.sqrt(sol.redchi_fit))}
         return notes
     scale = float(np.sqrt(sol.redchi_fit))
     dof = max(1, sol.problem.time.size - len(sol.problem.mapping.free) - sol.problem.n_linear)
