@@ -180,11 +180,12 @@ def test_errors_two_times_too_small_are_scaled_and_said():
     small = _fit(lc_small, errors="covariance")
     assert small.diagnostics["baseline"]["kind"] == "polynomial"  # wrong errors do not pass for variability
     note = next(n for n in small.notes if n.startswith("noise model:"))
-    scale = float(re.search(r"scaled by sqrt\(reduced chi-square\) = ([0-9.]+)", note).group(1))
-    # the true scatter is 2x the quoted errors; sqrt of a reduced chi-square over n points scatters by
-    # 1/sqrt(2n) relative (chi-square distribution): 3 of those
+    scale = float(re.search(r"errors are scaled by ([0-9.]+) before the fit", note).group(1))
+    # the true scatter is 2x the quoted errors; sqrt of a reduced chi-square over n out-of-eclipse points
+    # scatters by 1/sqrt(2n) relative (chi-square distribution): 3 of those
+    n_out = small.diagnostics["baseline"]["n_out"]
+    assert abs(scale - 2.0) < 2.0 * 3 / math.sqrt(2 * n_out)
     n = len(small.lc)
-    assert abs(scale - 2.0) < 2.0 * 3 / math.sqrt(2 * n)
     # uncertainties then consistent: as with the right errors (to the scatter of the two reduced chi-squares)
     for name, true in _truth().items():
         assert small.uncertainties[name] == pytest.approx(right.uncertainties[name], rel=6 / math.sqrt(2 * n))
