@@ -139,6 +139,12 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--errors", choices=_ERROR_CHOICES, default="auto",
                    help="how uncertainties are estimated (default: auto, the covariance matrix when it can "
                         "be trusted, else an MCMC)")
+    g.add_argument("--baseline", choices=("auto", "polynomial", "fourier", "gp"), default="auto",
+                   help="out-of-eclipse baseline multiplying the eclipses: a polynomial per segment, plus "
+                        "orbital harmonics (fourier), plus a Gaussian process (gp); default: auto, chosen from "
+                        "the out-of-eclipse residuals")
+    g.add_argument("--harmonics", type=int, metavar="N",
+                   help="orbital harmonics of the fourier/gp baseline (0-4; default: chosen by the BIC)")
     g.add_argument("--mcmc-seconds", type=_positive_float, metavar="S",
                    help="time budget of the MCMC (default with auto: 60 s per 20,000 points)")
     g.add_argument("--mcmc-walkers", type=int, default=32, metavar="N", help="MCMC walkers (default: 32)")
@@ -295,7 +301,8 @@ def _floats(option: str, tokens: list[str] | None) -> list[float] | None:
 #: Python argument names in the package's messages -> the command-line options that set them.  The
 #: package names Python arguments in backticks (`err_col`, `priors['x']`, `overwrite=True`); the
 #: command line shows the option instead, when the command has it (see _in_option_terms).
-_OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--prior", "errors": "--errors",
+_OPTION_OF = {"baseline": "--baseline", "harmonics": "--harmonics",
+              "free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--prior", "errors": "--errors",
               "mcmc_seconds": "--mcmc-seconds", "mcmc_walkers": "--mcmc-walkers", "mcmc_steps": "--mcmc-steps",
               "exposure_time": "--exposure-time", "supersample": "--supersample", "ld_law": "--ld-law",
               "ld_primary": "--ld1", "ld_secondary": "--ld2", "period": "--period", "t0": "--t0",
@@ -428,8 +435,8 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         choices = _fit_choices(args)
         fit_options = {"ld_law": args.ld_law, "ld_primary": _floats("--ld1", args.ld1),
                        "ld_secondary": _floats("--ld2", args.ld2), "mcmc_walkers": args.mcmc_walkers,
-                       "mcmc_steps": args.mcmc_steps}
-        for option in ("supersample", "mcmc_seconds"):
+                       "mcmc_steps": args.mcmc_steps, "baseline": args.baseline}
+        for option in ("supersample", "mcmc_seconds", "harmonics"):
             if getattr(args, option) is not None:
                 fit_options[option] = getattr(args, option)
         lc = _read_lc(args)

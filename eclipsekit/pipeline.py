@@ -228,6 +228,7 @@ def analyse(
     t0: float | None = None,
     exposure_time: Any = None,
     errors: str = "auto",
+    baseline: str = "auto",
     fix: tuple[str, ...] = (),
     free: tuple[str, ...] = (),
     fixed: dict[str, Any] | None = None,
@@ -264,6 +265,9 @@ def analyse(
     errors : {'auto', 'covariance', 'mcmc', 'permutation'}
         How the eclipse fit's uncertainties are estimated; "auto" uses the covariance
         matrix when it can be trusted, else an MCMC (see :func:`~eclipsekit.fit_eclipses`).
+    baseline : {'auto', 'polynomial', 'fourier', 'gp'}
+        Out-of-eclipse baseline of the eclipse fit (see :func:`~eclipsekit.fit_eclipses`);
+        "auto" chooses it from the out-of-eclipse residuals and says so in the fit's notes.
     fix, free : sequence of str
         Eclipse-fit parameters to hold fixed at their start values, or to fit.
     fixed : dict, optional
@@ -324,7 +328,7 @@ def analyse(
             lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
             exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free),
             fixed=dict(fixed or {}), priors=dict(priors or {}), progress=progress, seed=seed, joint=joint,
-            velocity_labels=velocity_labels, fit_options=dict(fit_options or {}))
+            velocity_labels=velocity_labels, fit_options={"baseline": baseline, **dict(fit_options or {})})
         start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
             _fit_light_curve(analysis, start, options)

@@ -167,8 +167,23 @@ def _eclipse_geometry(fit: Any) -> dict[str, float]:
     }
 
 
+def _baseline_panel(ax: Any, x: np.ndarray, fit: Any, near: np.ndarray | None = None) -> None:
+    """The fitted baseline (relative to its median, ppt) and the flux divided by the eclipse model."""
+    sel = slice(None) if near is None else near
+    level = float(np.median(fit.baseline))
+    out = fit.lc.flux / fit.model(fit.lc.time) / level - 1.0
+    ax.plot(x[sel], 1e3 * out[sel], ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True)
+    ax.plot(x[sel], 1e3 * (fit.baseline[sel] / level - 1.0), ".", ms=1.2, color=PALETTE["orange"],
+            rasterized=True, label="baseline")
+    ax.set_ylabel("Baseline (ppt)")
+
+
 def plot_folded_light_curve(fit: Any) -> Figure:
-    """Detrended light curve folded on the fitted period, with the model and the residuals."""
+    """Detrended light curve folded on the fitted period, with the model, the baseline and the residuals.
+
+    The middle panel shows the baseline that multiplies the eclipse model (polynomial,
+    orbital harmonics and/or Gaussian process) over the flux divided by the eclipse model.
+    """
     v = fit.values
     period, t0 = v["period"], v["t0"]
     time = fit.lc.time
@@ -178,8 +193,9 @@ def plot_folded_light_curve(fit: Any) -> Figure:
     grid_phase = np.linspace(-0.25, 0.75, 4001)
     grid_model = fit.model(t0 + grid_phase * period)
 
-    fig = _figure(3.4)
-    ax1, ax2 = fig.subplots(2, 1, sharex=True, height_ratios=[3, 1])
+    fig = _figure(4.2)
+    ax1, axb, ax2 = fig.subplots(3, 1, sharex=True, height_ratios=[3, 1, 1])
+    _baseline_panel(axb, phase, fit)
     ax1.plot(phase, flux, ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True, label="data")
     bx, by = _binned(phase, flux, 400, -0.25, 0.75)
     ax1.plot(bx, by, ".", ms=2.0, color=PALETTE["blue"], label="binned")
@@ -200,22 +216,23 @@ def plot_folded_light_curve(fit: Any) -> Figure:
 
 
 def plot_eclipses(fit: Any) -> Figure:
-    """Close-ups of the primary and secondary eclipses with the model and residuals."""
+    """Close-ups of the primary and secondary eclipses with the model, the baseline under them and residuals."""
     v = fit.values
     period, t0 = v["period"], v["t0"]
     geom = _eclipse_geometry(fit)
     time = fit.lc.time
     flux = fit.detrended_flux
     resid = flux - fit.model(time)
-    fig = _figure(3.2, width=2 * _COLUMN * 0.95)
-    axes = fig.subplots(2, 2, sharex="col", height_ratios=[3, 1])
+    fig = _figure(3.9, width=2 * _COLUMN * 0.95)
+    axes = fig.subplots(3, 2, sharex="col", height_ratios=[3, 1, 1])
     centres = (0.0, geom["phase_secondary"])
     widths = (geom["width_primary"], geom["width_secondary"])
     for col, (name, centre, width) in enumerate(zip(("Primary", "Secondary"), centres, widths)):
         half = 0.8 * width if width > 0 else 0.05
         phase = orbital_phase(time, period, t0, start=centre - 0.5) - centre
         near = np.abs(phase) < half
-        top, bottom = axes[0, col], axes[1, col]
+        top, bottom = axes[0, col], axes[2, col]
+        _baseline_panel(axes[1, col], phase, fit, near)
         grid = np.linspace(-half, half, 1500)
         top.plot(phase[near], flux[near], ".", ms=1.2, color=_DATA, alpha=0.6, rasterized=True)
         bx, by = _binned(phase[near], flux[near], 120, -half, half)
@@ -230,7 +247,8 @@ def plot_eclipses(fit: Any) -> Figure:
             lim = 5 * max(np.std(resid[near]), 1e-6) * 1e3
             bottom.set_ylim(-lim, lim)
     axes[0, 0].set_ylabel("Relative flux")
-    axes[1, 0].set_ylabel("O−C (ppt)")
+    axes[2, 0].set_ylabel("O−C (ppt)")
+    axes[1, 1].set_ylabel("")
     return fig
 
 

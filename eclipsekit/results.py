@@ -241,6 +241,11 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
         "status_reasons": list(getattr(fit, "status_reasons", []) or []),
         "notes": list(getattr(fit, "notes", []) or []) + _velocity_notes(analysis),
     })
+    for key in ("baseline", "noise_model", "gp_hyperparameters"):  # what the fit decided (see notes)
+        found = fit.diagnostics.get(key)
+        if found:
+            section[key] = {k: (finite_or_none(v) if isinstance(v, (int, float, np.floating)) and not
+                                isinstance(v, bool) else v) for k, v in found.items() if k != "note"}
     mcmc = fit.diagnostics.get("mcmc")
     if mcmc:
         section["mcmc"] = {k: (finite_or_none(v) if isinstance(v, (int, float, np.floating)) else v)

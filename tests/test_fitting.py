@@ -403,11 +403,28 @@ def test_out_of_eclipse_variation_is_flagged():
     f = f * (1 - 0.005 * np.cos(4 * np.pi * phase))
     lc = _lc(t, f, 5e-4, np.random.default_rng(6))
     start = _measured_start(t_all, f_all, TOTAL["period"], TOTAL["t0"])
+    # with the polynomial baseline forced, the variation is left in the residuals and flagged
     with pytest.warns(EclipsekitWarning) as record:
         fit = fit_eclipses(lc, start, ld_primary=TOTAL["ld_primary"], ld_secondary=TOTAL["ld_secondary"],
-                           progress=False)
+                           progress=False, baseline="polynomial")
     assert any("out-of-eclipse variation" in str(w.message) for w in record)
     assert any("out-of-eclipse variation" in w for w in fit.warnings)
+
+
+def test_out_of_eclipse_variation_is_modelled_by_default():
+    # the same variation (a pure second harmonic of the orbit) is taken up by the automatic Fourier baseline
+    t_all, f_all = _clean_curve("total")
+    t, f = t_all[::4], f_all[::4]
+    phase = (t - TOTAL["t0"]) / TOTAL["period"]
+    f = f * (1 - 0.005 * np.cos(4 * np.pi * phase))
+    lc = _lc(t, f, 5e-4, np.random.default_rng(6))
+    start = _measured_start(t_all, f_all, TOTAL["period"], TOTAL["t0"])
+    fit = fit_eclipses(lc, start, ld_primary=TOTAL["ld_primary"], ld_secondary=TOTAL["ld_secondary"],
+                       progress=False, errors="covariance")
+    # the second harmonic is found; (a GP is also adopted here on what remains: see the baseline note)
+    assert fit.diagnostics["baseline"]["kind"] in ("fourier", "gp") and fit.diagnostics["baseline"]["harmonics"] >= 2
+    assert fit.notes[0].startswith("baseline: polynomial per segment + ")
+    assert not any("out-of-eclipse variation" in w for w in fit.warnings)
 
 
 def test_start_from_a_period_search_object():

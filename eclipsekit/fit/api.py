@@ -41,6 +41,8 @@ def fit_eclipses(
     ld_primary: Iterable[float] | None = None,
     ld_secondary: Iterable[float] | None = None,
     baseline_degree: int = 1,
+    baseline: str = "auto",
+    harmonics: int | None = None,
     gap: float | None = None,
     clip_sigma: float | None = 5.0,
     window: bool | None = None,
@@ -113,6 +115,16 @@ def fit_eclipses(
     baseline_degree : int
         Degree of the polynomial multiplying the model in each segment (0 = only a
         normalisation per segment).
+    baseline : {"auto", "polynomial", "fourier", "gp"}
+        What multiplies the eclipse model besides that polynomial: nothing; a Fourier
+        series in orbital phase (reflection/ellipsoidal-like variation, stable spots;
+        solved linearly like the polynomial); or in addition a Gaussian process
+        (celerite2 SHO kernel and a jitter, fitted by maximum marginal likelihood) for
+        evolving spots, granulation and oscillations.  "auto" (default) decides from
+        the out-of-eclipse residuals of a polynomial fit (see
+        :func:`eclipsekit.fit.baseline.choose_baseline`); the decision is in ``notes``.
+    harmonics : int, optional
+        Orbital harmonics of the Fourier series (0..4); default chosen by the BIC.
     gap : float, optional
         Gap (days) that splits segments; default max(0.5 d, 10 x cadence).
     clip_sigma : float or None
@@ -185,7 +197,8 @@ def fit_eclipses(
         fit = joint_fit(lc, velocities, start, period=period, t0=t0, fix=fix, free=free, errors=errors,
                         exposure_time=exposure_time, supersample=supersample, ld_law=ld_law,
                         ld_primary=ld_primary, ld_secondary=ld_secondary, baseline_degree=baseline_degree,
-                        gap=gap, clip_sigma=clip_sigma, window=window, n_samples=n_samples, progress=progress,
+                        baseline=baseline, harmonics=harmonics, gap=gap, clip_sigma=clip_sigma, window=window,
+                        n_samples=n_samples, progress=progress,
                         seed=seed, separate_gamma=separate_gamma, fixed=fixed, priors=priors, **values)
     else:
         if separate_gamma:
@@ -193,8 +206,8 @@ def fit_eclipses(
         settings = make_settings(
             lc, period=period, t0=t0, fix=fix, free=free, errors=errors, exposure_time=exposure_time,
             supersample=supersample, ld_law=ld_law, ld_primary=ld_primary, ld_secondary=ld_secondary,
-            baseline_degree=baseline_degree, gap=gap, clip_sigma=clip_sigma, window=window,
-            mcmc_walkers=mcmc_walkers, mcmc_steps=mcmc_steps, mcmc_burn=mcmc_burn, mcmc_thin=mcmc_thin,
+            baseline_degree=baseline_degree, baseline=baseline, harmonics=harmonics, gap=gap,
+            clip_sigma=clip_sigma, window=window, mcmc_walkers=mcmc_walkers, mcmc_steps=mcmc_steps, mcmc_burn=mcmc_burn, mcmc_thin=mcmc_thin,
             n_samples=n_samples, n_shifts=n_shifts, progress=progress, seed=seed,
             check_limb_darkening=check_limb_darkening, check_third_light=check_third_light, fixed=fixed,
             priors=priors, mcmc_seconds=mcmc_seconds, **values)
