@@ -26,6 +26,7 @@ __all__ = [
     "plot_velocities",
     "plot_mass_radius_luminosity",
     "plot_analysis",
+    "plot_o_minus_c",
     "save_figure",
 ]
 
@@ -302,3 +303,38 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     for name, fig in figures.items():
         written.update(save_figure(fig, folder, name, formats))
     return written
+
+
+def plot_o_minus_c(times: Any) -> Figure:
+    """O−C diagram of an :class:`~eclipsekit.timings.EclipseTimes`, in minutes against cycle.
+
+    Primary eclipses are filled circles, secondary eclipses open squares (shape and fill, not
+    colour alone); the fitted period-change and light-travel-time terms are drawn as lines.
+    """
+    fig = _figure(2.6)
+    ax = fig.add_subplot()
+    table = times.table
+    kinds = np.asarray(table["eclipse"])
+    cycle = np.asarray(table["cycle"], float)
+    oc = np.asarray(table["o_minus_c"], float) * 1440.0
+    err = np.asarray(table["time_uncertainty"], float) * 1440.0
+    styles = {"primary": dict(marker="o", mfc=PALETTE["blue"], mec=PALETTE["blue"], label="primary"),
+              "secondary": dict(marker="s", mfc="white", mec=PALETTE["vermillion"], label="secondary")}
+    for kind, style in styles.items():
+        sel = kinds == kind
+        if sel.any():
+            ax.errorbar(cycle[sel], oc[sel], yerr=err[sel], ls="none", ms=3, mew=0.7, elinewidth=0.5,
+                        ecolor=style["mec"], **style)
+    curves = getattr(times.oc, "curves", None) or {}
+    terms = {"period_change": ("quadratic (period change)", PALETTE["green"], "--"),
+             "light_travel_time": ("light-travel-time orbit", PALETTE["black"], "-")}
+    for name, (label, colour, ls) in terms.items():
+        if name in curves:
+            block = getattr(times.oc, name, {})
+            flag = " (detected)" if block.get("detected") else ""
+            ax.plot(curves["cycle"], curves[name] * 1440.0, color=colour, ls=ls, lw=0.9, label=label + flag)
+    ax.axhline(0.0, color=_DATA, lw=0.5)
+    ax.set_xlabel("Cycle")
+    ax.set_ylabel("O − C (min)")
+    ax.legend(loc="best", frameon=False)
+    return fig
