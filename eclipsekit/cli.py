@@ -400,7 +400,8 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
 
 def _cmd_timings(args: argparse.Namespace) -> int:
     """Times of minimum and the O−C analysis, from a result.json, an ephemeris, or a fit made here."""
-    from .results import load_result, prepare_output_dir, write_timings
+    from .pipeline import write_timing_files
+    from .results import load_result, prepare_output_dir
     from .timings import eclipse_times
 
     if args.from_result is not None and (args.period is not None or args.t0 is not None):
@@ -420,7 +421,7 @@ def _cmd_timings(args: argparse.Namespace) -> int:
             return 1
         source = analysis.eclipse_fit
     times = eclipse_times(lc, source, method=args.method, progress=not args.quiet)
-    written = write_timings(args.out, times, command=args.command_line)
+    written = write_timing_files(args.out, times, command=args.command_line)
     print(times.summary())
     print()
     print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
@@ -445,13 +446,13 @@ def _analysis_for_timings(args: argparse.Namespace, lc: Any) -> Any:
 
 def _run_timings(args: argparse.Namespace, analysis: Any) -> list[str]:
     """`run --timings`: time the eclipses with the run's fit and write the timing files beside its results."""
-    from .results import write_timings
+    from .pipeline import write_timing_files
     from .timings import eclipse_times
 
     if analysis.eclipse_fit is None:
         return []
     times = eclipse_times(analysis.lc, analysis.eclipse_fit, progress=not args.quiet)
-    written = write_timings(args.out, times, command=args.command_line)
+    written = write_timing_files(args.out, times, command=args.command_line)
     print()
     print(times.summary())
     return [p.name for p in written.values()]

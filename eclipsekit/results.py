@@ -464,23 +464,3 @@ def timings_dict(times: Any, command: str | None = None) -> dict[str, Any]:
         out["light_travel_time"] = _timing_section(oc.light_travel_time)
     out["warnings"] = list(times.warnings)
     return out
-
-
-def write_timings(out: str | os.PathLike, times: Any, *, command: str | None = None, figures: bool = True,
-                  formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Path]:
-    """Write ``eclipse_times.ecsv``, the O−C figure, ``timings.txt`` and (last) ``timings.json`` into ``out``.
-
-    The folder must exist (see :func:`prepare_output_dir`); each file is written atomically.
-    """
-    from .summary import format_timings
-
-    folder = Path(out)
-    content = timings_dict(times, command=command)
-    written = {"eclipse_times": write_table(folder / "eclipse_times.ecsv", times.table)}
-    if figures and len(times.table):
-        from .plots import plot_o_minus_c, save_figure
-
-        written.update(save_figure(plot_o_minus_c(times), folder, "o_minus_c", formats))
-    written["timings_summary"] = write_text(folder / "timings.txt", format_timings(content))
-    written["timings"] = write_json(folder / "timings.json", content)
-    return written
