@@ -63,7 +63,7 @@ MIN_COVERAGE = 0.8
 KVW_MIN_POINTS = 15
 #: Timing methods.
 METHODS = ("model", "kvw")
-_BAROCENTRIC = ("BJD_TDB", "BJD")
+_BARYCENTRIC = ("BJD_TDB", "BJD")
 _GRID = 4001          # template points per eclipse window
 _N_SHIFTS = 81        # coarse shift grid over ±D/4
 
@@ -466,8 +466,6 @@ def eclipse_times(lc: Any, fit_or_ephemeris: Any, *, method: str | None = None,
     .. [3] Irwin, J. B. 1952, ApJ, 116, 211 (light-travel-time effect)
     .. [4] Giménez, A. & Garcia-Pelayo, J. M. 1983, Ap&SS, 92, 203 (apsidal motion)
     """
-    from astropy.table import Table
-
     from .ocdiagram import analyse_o_minus_c
 
     if method is not None and method not in METHODS:
@@ -480,7 +478,7 @@ def eclipse_times(lc: Any, fit_or_ephemeris: Any, *, method: str | None = None,
                          "or use method='kvw'")
     notes = _notes.Notes()
     system = str(lc.meta.get("time_system") or "unknown")
-    if system.upper() not in _BAROCENTRIC:
+    if system.upper() not in _BARYCENTRIC:
         notes.warn(f"the times are not barycentric (time system {system}): the Earth's light travel time "
                    "(up to ±8.3 min over a year; a few seconds for HJD) stays in the O−C diagram; "
                    "light-travel-time terms need BJD_TDB")
