@@ -305,11 +305,16 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     return written
 
 
+_TERM_LABELS = {"period_change": "period change", "apsidal_motion": "apsidal trend",
+                "light_travel_time": "light-travel-time orbit"}
+
+
 def plot_o_minus_c(times: Any) -> Figure:
     """O−C diagram of an :class:`~eclipsekit.timings.EclipseTimes`, in minutes against cycle.
 
     Primary eclipses are filled circles, secondary eclipses open squares (shape and fill, not
-    colour alone); the fitted period-change and light-travel-time terms are drawn as lines.
+    colour alone); the selected model's terms (:func:`~eclipsekit.ocdiagram.analyse_o_minus_c`)
+    are drawn as a line, dashed for the secondaries when it has an apsidal trend.
     """
     fig = _figure(2.6)
     ax = fig.add_subplot()
@@ -326,13 +331,13 @@ def plot_o_minus_c(times: Any) -> Figure:
             ax.errorbar(cycle[sel], oc[sel], yerr=err[sel], ls="none", ms=3, mew=0.7, elinewidth=0.5,
                         ecolor=style["mec"], **style)
     curves = getattr(times.oc, "curves", None) or {}
-    terms = {"period_change": ("quadratic (period change)", PALETTE["green"], "--"),
-             "light_travel_time": ("light-travel-time orbit", PALETTE["black"], "-")}
-    for name, (label, colour, ls) in terms.items():
-        if name in curves:
-            block = getattr(times.oc, name, {})
-            flag = " (detected)" if block.get("detected") else ""
-            ax.plot(curves["cycle"], curves[name] * 1440.0, color=colour, ls=ls, lw=0.9, label=label + flag)
+    selected = [_TERM_LABELS[t] for t in getattr(times.oc, "selected_terms", ())]
+    if selected and "primary" in curves:
+        label = "selected model: " + " + ".join(selected)
+        ax.plot(curves["cycle"], curves["primary"] * 1440.0, color=PALETTE["black"], lw=0.9, label=label)
+        if "apsidal_motion" in times.oc.selected_terms and "secondary" in curves:
+            ax.plot(curves["cycle"], curves["secondary"] * 1440.0, color=PALETTE["vermillion"], ls="--", lw=0.9,
+                    label="selected model, secondary")
     ax.axhline(0.0, color=_DATA, lw=0.5)
     ax.set_xlabel("Cycle")
     ax.set_ylabel("O − C (min)")

@@ -462,5 +462,6 @@ def timings_dict(times: Any, command: str | None = None) -> dict[str, Any]:
         out["period_change"] = _timing_section(oc.period_change)
         out["apsidal_motion"] = _timing_section(oc.apsidal_motion)
         out["light_travel_time"] = _timing_section(oc.light_travel_time)
+        out["selected_terms"] = list(oc.selected_terms)
     out["warnings"] = list(times.warnings)
     return out

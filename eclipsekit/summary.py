@@ -220,7 +220,9 @@ def format_timings(content: Mapping[str, Any]) -> str:
         q = (content.get(section) or {}).get(key)
         if isinstance(q, Mapping) and q.get("value") is not None:
             lines.append(f"{label:<34}{_small(q):>34}  {q.get('unit', '')}")
-    lines += ["", "Terms against the linear ephemeris (detected: ΔBIC > 10):"]
+    selected = " + ".join(content.get("selected_terms") or []) or "none"
+    lines += ["", f"Terms beyond the linear ephemeris; selected (lowest BIC): {selected}",
+              "each tested against the selected model without it (detected: ΔBIC > 10):"]
     for section, label in _TESTS:
         block = content.get(section) or {}
         if block.get("delta_chi_square") is None:
