@@ -403,7 +403,7 @@ def _ltt_result(fit: _Fit, scale: float) -> dict[str, Any]:
     phi_err = math.degrees(math.sqrt(max(g_phi @ sub @ g_phi, 0.0)))
     p3, p3_err = 1.0 / f, math.sqrt(sub[2, 2]) / f ** 2
     # mass function of the third body, f(m3) = (m3 sin i3)^3 / (m1+m2+m3)^2 = 4 pi^2 (a12 sin i3)^3 / (G P3^2),
-    # with a12 sin i3 = c A for a circular orbit (Irwin 1952, ApJ 116, 211)
+    # with a12 sin i3 = c A for a circular orbit (Irwin 1952, ApJ 116, 211; the formula from memory)
     a12 = const.c.value * amp * 86400.0
     p3_s = p3 * 86400.0
     mass_fn = 4 * math.pi ** 2 * a12 ** 3 / (const.G.value * p3_s ** 2) / const.M_sun.value

@@ -24,22 +24,24 @@ over ±D/4, then Brent's method).  Its uncertainty is the larger of
 * the local χ² curvature (Gauss–Newton, baseline profiled out) scaled by the residual scatter
   sqrt(χ²/(n − 3)), and
 * the spread of the shifts fitted to the best model plus the residuals shifted cyclically
-  (residual permutation, "prayer bead"; Jenkins, Caldwell & Borucki 2002, ApJ 564, 495), each
-  refit by one Gauss–Newton step (exact to first order in the shift), which sees correlated noise.
+  (residual permutation, "prayer bead"; Jenkins, Caldwell & Borucki 2002, ApJ 564, 495; from
+  memory), each refit by one Gauss–Newton step (exact to first order in the shift), which sees
+  correlated noise.
 
 ``"kvw"``: Kwee & van Woerden (1956, BAN 12, 327), the classic model-free method for a symmetric
-minimum: the light curve (divided by a linear fit to the out-of-eclipse points) is interpolated
-at pairs of times symmetric about a trial time T, S(T) is the sum of the squared differences
-of the pairs, a parabola through S at three trial times spaced by one cadence gives the minimum,
-and KvW's σ² = (4AC − B²) / (4A² (Z − 1)), Z = N/4 for N interpolated points, is kept in the
-column ``time_uncertainty_kvw_formula``.  Measured against the scatter of KvW times over noise
-realisations (``scripts/calibrate_kvw.py``, 300 eclipses per case) that formula is off by factors
-0.2 to 0.9 (it overestimates: its S_min also holds the interpolation error of the branches), so
-the ``time_uncertainty`` reported is the flux errors propagated linearly through KvW's own
-estimator (dS/dT = 0; :func:`_kvw_propagated`), times sqrt(χ²_ν) of the out-of-eclipse baseline
-when above one: measured scatter / uncertainty 0.87-1.15 at 2- and 10-minute cadence.  With fewer
-than :data:`KVW_MIN_POINTS` points in an eclipse the interpolation error dominates at high S/N
-(measured 1.4-3.7 at 30-minute cadence, 9 points per eclipse) and a warning recommends the model.
+minimum: the light curve (divided by a linear fit to the out-of-eclipse points) is interpolated at
+pairs of times symmetric about a trial time T, S(T) is the sum of the squared differences of the
+pairs, a parabola through S at three trial times spaced by one cadence gives the minimum, and KvW's
+σ² = (4AC − B²) / (4A² (Z − 1)), Z = N/4 for N interpolated points (their formula, from memory), is
+kept in the column ``time_uncertainty_kvw_formula``. Measured against the scatter of KvW times over
+noise realisations (``scripts/calibrate_kvw.py``, 300 eclipses per case) that formula is off by
+factors 0.2 to 0.9 (it overestimates: its S_min also holds the interpolation error of the
+branches), so the ``time_uncertainty`` reported is the flux errors propagated linearly through
+KvW's own estimator (dS/dT = 0; :func:`_kvw_propagated`), times sqrt(χ²_ν) of the out-of-eclipse
+baseline when above one: measured scatter / uncertainty 0.87-1.15 at 2- and 10-minute cadence.
+With fewer than :data:`KVW_MIN_POINTS` points in an eclipse the interpolation error dominates at
+high S/N (measured 1.4-3.7 at 30-minute cadence, 9 points per eclipse) and a warning recommends the
+model.
 """
 
 from __future__ import annotations
@@ -462,7 +464,8 @@ def eclipse_times(lc: Any, fit_or_ephemeris: Any, *, method: str | None = None,
     References
     ----------
     .. [1] Kwee, K. K. & van Woerden, H. 1956, BAN, 12, 327
-    .. [2] Jenkins, J. M., Caldwell, D. A. & Borucki, W. J. 2002, ApJ, 564, 495 (residual permutation)
+    .. [2] Jenkins, J. M., Caldwell, D. A. & Borucki, W. J. 2002, ApJ, 564, 495 (residual permutation;
+           reference from memory)
     .. [3] Irwin, J. B. 1952, ApJ, 116, 211 (light-travel-time effect)
     .. [4] Giménez, A. & Garcia-Pelayo, J. M. 1983, Ap&SS, 92, 203 (apsidal motion)
     """

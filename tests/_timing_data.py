@@ -2,10 +2,11 @@
 
 The brute-force flux of one primary and one secondary eclipse of an invented circular binary is
 computed once on a fine grid of times from mid-eclipse and interpolated by a cubic spline (its
-error, ~(h/D)^4 of the depth with h = D/500, is far below the noise); each eclipse of a light curve
-is that shape moved to its own mid-time, which may carry any injected shift (a light-travel-time
-orbit, a period change).  Only windows of ±0.25 d around the eclipses are sampled, with a random
-phase of the cadence per eclipse.  Nothing here uses eclipsekit's model.
+error, of order (h/D)^4 of the depth where the flux is smooth and larger only within a step of the
+contacts (cubic-spline error, from memory), with the step h ≈ D/250, is far below the noise); each
+eclipse of a light curve is that shape moved to its own mid-time, which may carry any injected
+shift (a light-travel-time orbit, a period change). Only windows of ±0.25 d around the eclipses are
+sampled, with a random phase of the cadence per eclipse. Nothing here uses eclipsekit's model.
 """
 
 from __future__ import annotations

@@ -65,7 +65,8 @@ def test_light_time_amplitude_period_and_mass_function(light_time_run):
     # follow-up: the apsidal trend was reported when each term was tested alone)
     assert not result.oc.period_change["detected"] and not result.oc.apsidal_motion["detected"]
     assert result.oc.selected_terms == ("light_travel_time",)
-    # mass function f(m3) = 4 pi^2 (a12 sin i)^3 / (G P3^2), a12 sin i = c A (Irwin 1952, ApJ 116, 211)
+    # mass function f(m3) = 4 pi^2 (a12 sin i)^3 / (G P3^2), a12 sin i = c A (Irwin 1952, ApJ 116, 211;
+    # the formula from memory, Kepler's third law)
     expected = (4 * math.pi ** 2 * (const.c * a * u.day) ** 3 / (const.G * (p3 * u.day) ** 2)).to(u.M_sun)
     assert ltt["mass_function"][0] == pytest.approx(expected.value, rel=1e-10)
 
@@ -177,7 +178,7 @@ def test_ephemeris_recovered_from_times():
     assert oc.ephemeris["period"][0] == pytest.approx(1.2345678, abs=1e-12)
     assert oc.ephemeris["t0"][0] == pytest.approx(2459000.5, abs=1e-9)
     # sigma of the slope of a straight line through N equally weighted points:
-    # sigma / sqrt(sum (E - mean E)^2) (textbook least squares, e.g. Bevington & Robinson eq. 6.22)
+    # sigma / sqrt(sum (E - mean E)^2) (textbook least squares, e.g. Bevington & Robinson eq. 6.22; from memory)
     assert oc.ephemeris["period"][1] == pytest.approx(1e-4 / np.sqrt(np.sum((cycle - cycle.mean()) ** 2)), rel=1e-9)
 
 
