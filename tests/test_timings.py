@@ -15,11 +15,12 @@ from astropy import constants as const
 from astropy import units as u
 from astropy.table import Table
 
-from _timing_data import SYSTEM, T0, light_curve, model_parameters
+from _timing_data import SYSTEM, T0, light_curve, model_parameters, shapes
 from eclipsekit import EclipsekitWarning, InputError, eclipse_times
 from eclipsekit.cli import main
 from eclipsekit.data import LightCurve
 from eclipsekit.ocdiagram import analyse_o_minus_c
+from eclipsekit.timings import _folded_duration
 
 P = SYSTEM["period"]
 CADENCE = 10.0 / 1440
@@ -180,6 +181,30 @@ def test_ephemeris_recovered_from_times():
     # sigma of the slope of a straight line through N equally weighted points:
     # sigma / sqrt(sum (E - mean E)^2) (textbook least squares, e.g. Bevington & Robinson eq. 6.22; from memory)
     assert oc.ephemeris["period"][1] == pytest.approx(1e-4 / np.sqrt(np.sum((cycle - cycle.mean()) ** 2)), rel=1e-9)
+
+
+@pytest.mark.parametrize("kind", ["primary", "secondary"])
+def test_folded_duration_matches_the_geometry(kind):
+    # the eclipse duration of the ephemeris-only (Kwee-van Woerden) path, from the folded data
+    t, f, e, _ = light_curve(lambda c, tc: 0.0, 100, CADENCE, NOISE, seed=18)
+    tc = T0 + (0.5 * P if kind == "secondary" else 0.0)
+    found = _folded_duration(_lc(t, f, e), P, tc)
+    # first to last contact of a circular orbit, T = (P / pi) asin(sqrt((r1 + r2)^2 - cos^2 i) / sin i)
+    # (Winn 2010, "Transits and Occultations", eq. 14, with R*/a (1 + k) = r1 + r2; from memory)
+    inc = math.radians(SYSTEM["inclination"])
+    true = P / math.pi * math.asin(math.sqrt(SYSTEM["radius_sum"] ** 2 - math.cos(inc) ** 2) / math.sin(inc))
+    # the estimate is the run of folded bins (width w = 2 cadences) whose mean is 4 noise-sigma low, plus
+    # one bin: bins that merely touch the eclipse can be low, so at most D/w + 2 bins (+1: <= D + 3w);
+    # when every bin wholly inside the eclipse is detected, at least D/w - 2 bins (+1: >= D - w)
+    width = 2 * CADENCE
+    n_bin = 100 * width / CADENCE                      # points per bin: 100 orbits
+    shape = shapes()[kind == "secondary"]
+    edge = np.linspace(0.5 * true - width, 0.5 * true, 101)
+    # precondition: the shallowest bin wholly inside (next to a contact) is below the threshold, 4 sigma
+    # of a bin's mean with sigma the robust scatter of all points, eclipses included (1.4826 MAD, common practice)
+    noise = 1.4826 * np.median(np.abs(f - np.median(f)))
+    assert np.mean(1 - shape(edge)) > 4 * noise / math.sqrt(n_bin)
+    assert true - width <= found <= true + 3 * width
 
 
 def test_non_barycentric_times_warn_and_bad_method_refused():
