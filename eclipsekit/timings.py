@@ -221,7 +221,13 @@ def _from_ephemeris(lc: Any, source: Any) -> _Source:
 
 
 def _folded_duration(lc: Any, period: float, tc: float) -> float | None:
-    """Width of the dip at ``tc`` in the folded light curve: bins more than 4 sigma below the median level."""
+    """Width of the dip at ``tc`` in the folded light curve: bins more than 4 sigma below the median level.
+
+    The run of low bins (width w = 2 cadences, at least 0.001 in phase) around ``tc``, plus one bin.
+    Bins that only touch the eclipse can be low, so the result is at most D + 3w for a true duration
+    D; it is at least D − w when every bin wholly inside the eclipse is detected, and shorter at low
+    S/N, where the shallow wings of a partial eclipse stay below the threshold.  None without a dip.
+    """
     phase = ((lc.time - tc) / period + 0.5) % 1.0 - 0.5
     width = max(2 * lc.cadence / period, 1e-3)
     edges = np.arange(-0.25, 0.25 + width, width)
