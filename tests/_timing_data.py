@@ -57,3 +57,24 @@ def light_curve(shift, n_orbits: int, cadence: float, noise: float, seed: int):
 def model_parameters() -> dict:
     """The true parameters, for eclipsekit's template (the truth data never come from it)."""
     return dict(SYSTEM, t0=T0)
+
+
+def continuous_light_curve(shift, n_orbits: int, cadence: float, noise: float, seed: int):
+    """Like :func:`light_curve`, but sampled without gaps over ``n_orbits`` orbits (for the period search).
+
+    Out of eclipse the two spheres give exactly the normalised flux 1 (no other light variation).
+    """
+    primary, secondary = shapes()
+    period = SYSTEM["period"]
+    t = np.arange(T0 - 0.25 * period, T0 + (n_orbits - 0.25) * period, cadence)
+    flux = np.ones(t.size)
+    truth = []
+    for cycle in range(n_orbits):
+        for kind, offset, shape in (("primary", 0.0, primary), ("secondary", 0.5 * period, secondary)):
+            tc = T0 + offset + cycle * period
+            true_time = tc + shift(cycle, tc)
+            near = np.abs(t - true_time) < HALF_WINDOW
+            flux[near] = shape(t[near] - true_time)
+            truth.append((kind, cycle, true_time))
+    rng = np.random.default_rng(seed)
+    return t, flux + noise * rng.standard_normal(t.size), np.full(t.size, noise), truth

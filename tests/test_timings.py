@@ -15,7 +15,7 @@ from astropy import constants as const
 from astropy import units as u
 from astropy.table import Table
 
-from _timing_data import SYSTEM, T0, light_curve, model_parameters, shapes
+from _timing_data import SYSTEM, T0, continuous_light_curve, light_curve, model_parameters, shapes
 from eclipsekit import EclipsekitWarning, InputError, eclipse_times
 from eclipsekit.cli import main
 from eclipsekit.data import LightCurve
@@ -271,3 +271,56 @@ def test_cli_refuses_from_with_period(tmp_path, capsys):
     assert code == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--from" in err[0] and "--period" in err[0]
+
+
+@pytest.fixture(scope="module")
+def continuous_csv(tmp_path_factory):
+    """Five orbits without gaps at 2-minute cadence, every eclipse delayed by its own known shift."""
+    t, f, e, truth = continuous_light_curve(lambda c, tc: 0.002 * math.sin(1.7 * c + 0.4 * (tc - T0)), 5,
+                                            2.0 / 1440, 5e-4, seed=19)
+    csv = tmp_path_factory.mktemp("continuous") / "lc.csv"
+    np.savetxt(csv, np.column_stack([t, f, e]), delimiter=",", header="bjd_tdb,flux,flux_err", comments="",
+               fmt="%.8f")
+    return csv, truth
+
+
+def _check_timing_files(out, truth):
+    """The contract files exist and the times match the injected ones within their errors."""
+    for name in ("eclipse_times.ecsv", "timings.json", "timings.txt", "o_minus_c.png", "o_minus_c.pdf"):
+        assert (out / name).stat().st_size > 0
+    table = Table.read(out / "eclipse_times.ecsv")
+    assert set(table["method"]) == {"model"}
+    # the cycles are counted from the fit's own t0: match each time to the nearest injected one
+    true = np.array([tt for _, _, tt in truth])
+    shift = true - np.array([T0 + cycle * P + (0.5 * P if kind == "secondary" else 0.0) for kind, cycle, _ in truth])
+    match = np.argmin(np.abs(np.asarray(table["time"])[:, None] - true[None, :]), axis=1)
+    sigma = np.asarray(table["time_uncertainty"])
+    z = (np.asarray(table["time"]) - true[match]) / sigma
+    assert len(table) == len(truth) == 10 and len(set(match)) == 10
+    # every eclipse within 3 sigma: a Gaussian deviate exceeds it with probability 0.27%, one of ten
+    # with 2.7% (common practice)
+    assert np.all(np.abs(z) < 3), z
+    # the injected shifts are many sigma, so times that ignored them would fail the check above
+    assert np.sum(np.abs(shift[match]) > 5 * sigma) >= 5
+    content = json.loads((out / "timings.json").read_text())
+    assert set(content["light_travel_time"]) >= {"semi_amplitude", "period", "delta_bic", "detected"}
+
+
+def test_cli_timings_searches_and_fits_first(continuous_csv, tmp_path, capsys):
+    # neither --from nor --period: the period search and the eclipse fit run first, as in `run`
+    csv, truth = continuous_csv
+    out = tmp_path / "t"
+    assert main(["timings", str(csv), "--out", str(out), "--quiet"]) == 0
+    _check_timing_files(out, truth)
+    assert not (out / "result.json").exists()       # the timing files only
+    assert "Eclipse timings" in capsys.readouterr().out
+
+
+def test_cli_run_with_timings(continuous_csv, tmp_path, capsys):
+    csv, truth = continuous_csv
+    out = tmp_path / "r"
+    assert main(["run", str(csv), "--timings", "--out", str(out), "--quiet"]) == 0
+    assert (out / "result.json").stat().st_size > 0          # the whole run's results beside the timings
+    _check_timing_files(out, truth)
+    printed = capsys.readouterr().out
+    assert "Eclipse timings" in printed and "eclipse_times.ecsv" in printed
