@@ -26,7 +26,12 @@ over ±D/4, then Brent's method).  Its uncertainty is the larger of
 * the spread of the shifts fitted to the best model plus the residuals shifted cyclically
   (residual permutation, "prayer bead"; Jenkins, Caldwell & Borucki 2002, ApJ 564, 495; from
   memory), each refit by one Gauss–Newton step (exact to first order in the shift), which sees
-  correlated noise.
+  part of the correlated noise.
+
+Neither sees all of it (the fit absorbs the noise that mimics a shift), so with at least three
+times the reported ``time_uncertainty`` of either method is then multiplied by sqrt(χ²_ν) of the
+times about the all-terms O−C model when that exceeds one (:func:`_apply_error_scale`; the value
+before is kept in ``time_uncertainty_light_curve``).
 
 ``"kvw"``: Kwee & van Woerden (1956, BAN 12, 327), the classic model-free method for a symmetric
 minimum: the light curve (divided by a linear fit to the out-of-eclipse points) is interpolated at
@@ -507,6 +512,7 @@ def eclipse_times(lc: Any, fit_or_ephemeris: Any, *, method: str | None = None,
                                np.asarray(table["eclipse"]) == "secondary", period=src.period, t0=src.t0,
                                **_orbit_arguments(src.orbit))
         table["o_minus_c"] = oc.o_minus_c
+        _apply_error_scale(table, oc.error_scale)
     else:
         status = "too_few_eclipses"
         message = (f"{len(rows)} eclipse(s) timed: at least three are needed for an ephemeris"
@@ -514,6 +520,22 @@ def eclipse_times(lc: Any, fit_or_ephemeris: Any, *, method: str | None = None,
         notes.warn(message)
     return EclipseTimes(table, oc, method, {"period": src.period, "t0": src.t0}, skipped, system,
                         notes.messages, status, message, lc.meta.get("source"))
+
+
+def _apply_error_scale(table: Any, scale: float) -> None:
+    """Scale ``time_uncertainty`` by the O−C scatter (``scale`` >= 1), keeping the light-curve value.
+
+    Within one eclipse window correlated noise that mimics a shift is absorbed by the fit, so no
+    estimate from that window's residuals (curvature, permutation) sees all of it: measured with
+    AR(1) noise as strong as the white noise, 50% of |z| < 1 instead of 68%.  The scatter of the
+    times about the all-terms O−C model does see it, so the reported uncertainty is the light-curve
+    one times sqrt(χ²_ν) of that model when above one (the common rescaling of timing errors to
+    the O−C scatter), one factor for all eclipses; ``time_uncertainty_light_curve`` keeps the value
+    before, and ``table.meta["error_scale"]`` the factor.
+    """
+    table["time_uncertainty_light_curve"] = table["time_uncertainty"].copy()
+    table["time_uncertainty"] = table["time_uncertainty"] * max(float(scale), 1.0)
+    table.meta["error_scale"] = max(float(scale), 1.0)
 
 
 def _orbit_arguments(orbit: dict[str, Any]) -> dict[str, Any]:
