@@ -334,6 +334,8 @@ def plot_o_minus_c(times: Any) -> Figure:
     selected = [_TERM_LABELS[t] for t in getattr(times.oc, "selected_terms", ())]
     if selected and "primary" in curves:
         label = "selected model: " + " + ".join(selected)
+        if not all(getattr(times.oc, t)["detected"] for t in times.oc.selected_terms):
+            label += " (not all detected)"
         ax.plot(curves["cycle"], curves["primary"] * 1440.0, color=PALETTE["black"], lw=0.9, label=label)
         if "apsidal_motion" in times.oc.selected_terms and "secondary" in curves:
             ax.plot(curves["cycle"], curves["secondary"] * 1440.0, color=PALETTE["vermillion"], ls="--", lw=0.9,
