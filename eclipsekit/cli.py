@@ -315,7 +315,8 @@ _OPTION_OF = {"baseline": "--baseline", "harmonics": "--harmonics",
               "orbit": "--rv", "overwrite": "--overwrite",
               "rv1_col": "--rv1-col", "rv1_err_col": "--rv1-err-col", "rv2_col": "--rv2-col",
               "rv2_err_col": "--rv2-err-col", "coordinates": "--coordinates", "labels": "--rv-labels",
-              "velocity_labels": "--rv-labels"}
+              "velocity_labels": "--rv-labels", "method": "--method",
+              "fit_or_ephemeris": "--from"}
 
 #: Python values in messages -> what the option takes (`err_col=False` is --err-col none)
 _OPTION_VALUE = {"True": "", "False": "none", "None": "none"}
@@ -461,8 +462,11 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         **choices)
     written = analysis.write(args.out, overwrite=True)
     print(_in_option_terms(analysis.summary(), _option_names(args)))
+    names = [p.name for p in written.values()]
+    if getattr(args, "timings", False):
+        names += _run_timings(args, analysis)
     print()
-    print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
+    print(f"Results written to {args.out}/: " + ", ".join(sorted(names)))
     # "poor_fit" and "caution" are answers with a caveat (on the summary's first line); the rest did not conclude
     return 0 if analysis.status in ("ok", "poor_fit", "caution") else 1
 
@@ -511,6 +515,66 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
     return 0
 
 
+def _cmd_timings(args: argparse.Namespace) -> int:
+    """Times of minimum and the O−C analysis, from a result.json, an ephemeris, or a fit made here."""
+    from .pipeline import write_timing_files
+    from .results import load_result, prepare_output_dir
+    from .timings import eclipse_times
+
+    if args.from_result is not None and (args.period is not None or args.t0 is not None):
+        raise InputError("give either --from RESULT.json or --period/--t0, not both")
+    if (args.period is None) != (args.t0 is None):
+        raise InputError("give both --period and --t0 (or neither, to search and fit first)")
+    lc = _read_lc(args)
+    prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
+    if args.from_result is not None:
+        source = load_result(args.from_result)
+    elif args.period is not None and args.method == "kvw":
+        source = {"period": args.period, "t0": args.t0}   # the model-free method needs no fit
+    else:
+        analysis = _analysis_for_timings(args, lc)
+        if analysis.eclipse_fit is None:
+            print(analysis.summary())
+            return 1
+        source = analysis.eclipse_fit
+    times = eclipse_times(lc, source, method=args.method, progress=not args.quiet)
+    written = write_timing_files(args.out, times, command=args.command_line)
+    print(times.summary())
+    print()
+    print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
+    return 0 if times.status == "ok" else 1
+
+
+def _analysis_for_timings(args: argparse.Namespace, lc: Any) -> Any:
+    """The period search (unless --period) and the eclipse fit, as `run` does them."""
+    from .pipeline import analyse
+
+    exposure = None if args.exposure_time is None else args.exposure_time / 86400.0
+    fit_options = {"ld_law": args.ld_law, "ld_primary": _floats("--ld1", args.ld1),
+                   "ld_secondary": _floats("--ld2", args.ld2), "mcmc_walkers": args.mcmc_walkers,
+                   "mcmc_steps": args.mcmc_steps}
+    for option in ("supersample", "mcmc_seconds"):
+        if getattr(args, option) is not None:
+            fit_options[option] = getattr(args, option)
+    return analyse(lc, min_period=args.min_period, max_period=args.max_period, period=args.period, t0=args.t0,
+                   exposure_time=exposure, errors=args.errors, progress=not args.quiet, seed=args.seed,
+                   command=args.command_line, fit_options=fit_options, **_fit_choices(args))
+
+
+def _run_timings(args: argparse.Namespace, analysis: Any) -> list[str]:
+    """`run --timings`: time the eclipses with the run's fit and write the timing files beside its results."""
+    from .pipeline import write_timing_files
+    from .timings import eclipse_times
+
+    if analysis.eclipse_fit is None:
+        return []
+    times = eclipse_times(analysis.lc, analysis.eclipse_fit, progress=not args.quiet)
+    written = write_timing_files(args.out, times, command=args.command_line)
+    print()
+    print(times.summary())
+    return [p.name for p in written.values()]
+
+
 # ---- parser ------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``eclipsekit`` command."""
@@ -551,10 +615,28 @@ def build_parser() -> argparse.ArgumentParser:
         if with_dimensions:
             _dimension_options(p, joint=True)
             _velocity_reader_options(p)
+            p.add_argument("--timings", action="store_true",
+                           help="also time every eclipse and write the O-C analysis (as `eclipsekit timings`)")
         _output_options(p, "eclipsekit-results")
         _common(p)
         p.set_defaults(func=_cmd_analyse)
         p.usage = p.format_usage().removeprefix("usage: ").replace("[FILE]", "FILE").strip()
+
+    p = sub.add_parser("timings", help="times of minimum of every eclipse, O-C diagram, period change, "
+                                      "third-body light-travel time")
+    p.add_argument("file", nargs="?", metavar="FILE", help="light-curve file (required)")
+    p.add_argument("--from", dest="from_result", metavar="RESULT", help="result.json of `fit` or `run`: its "
+                   "eclipse model times the eclipses (default: search and fit first, as `run`)")
+    p.add_argument("--method", choices=["model", "kvw"], default=None,
+                   help="model: the fitted eclipse model moved in time (default); kvw: Kwee & van Woerden "
+                        "1956 (with --period/--t0 it needs no fit)")
+    _reader_options(p)
+    _period_options(p)
+    _fit_options(p)
+    _output_options(p, "eclipsekit-timings")
+    _common(p)
+    p.set_defaults(func=_cmd_timings)
+    p.usage = p.format_usage().removeprefix("usage: ").replace("[FILE]", "FILE").strip()
 
     p = sub.add_parser("dimensions", help="masses, radii, gravities (and luminosities) from a result.json")
     p.add_argument("result", help="result.json written by `eclipsekit fit` or `run`")
@@ -583,7 +665,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(exc.code or 0)
     debug = getattr(args, "debug", False)
     args.command_line = _command_line(argv)
-    if args.command in ("fit", "run"):
+    if args.command in ("fit", "run", "timings"):
         try:
             _recover_file(args)
         except InputError as exc:

@@ -26,7 +26,7 @@ from .errors import EclipsekitWarning, InputError, NoEclipseFound
 from .orbit import orbital_phase
 from .summary import format_summary
 
-__all__ = ["Analysis", "analyse", "write_dimension_files", "LONG_CADENCE"]
+__all__ = ["Analysis", "analyse", "write_dimension_files", "write_timing_files", "LONG_CADENCE"]
 
 #: Cadence (days) above which unsmeared eclipse models are biased; 10 minutes.
 LONG_CADENCE = 10.0 / 1440.0
@@ -519,6 +519,27 @@ def write_dimension_files(out: str | os.PathLike, content: dict[str, Any], text:
     written.extend(analysis.plot(folder).values())
     written.append(results.write_text(folder / "summary.txt", text))
     written.append(results.write_json(folder / "result.json", content))
+    return written
+
+
+def write_timing_files(out: str | os.PathLike, times: Any, *, command: str | None = None, figures: bool = True,
+                       formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Path]:
+    """Write ``eclipse_times.ecsv``, the O−C figure, ``timings.txt`` and (last) ``timings.json`` into ``out``.
+
+    The files of ``eclipsekit timings`` and ``run --timings`` for an
+    :class:`~eclipsekit.timings.EclipseTimes`; the folder must exist
+    (:func:`~eclipsekit.results.prepare_output_dir`); each file is written atomically.
+    """
+    from . import plots
+    from .summary import format_timings
+
+    folder = Path(out)
+    content = results.timings_dict(times, command=command)
+    written = {"eclipse_times": results.write_table(folder / "eclipse_times.ecsv", times.table)}
+    if figures and len(times.table):
+        written.update(plots.save_figure(plots.plot_o_minus_c(times), folder, "o_minus_c", formats))
+    written["timings_summary"] = results.write_text(folder / "timings.txt", format_timings(content))
+    written["timings"] = results.write_json(folder / "timings.json", content)
     return written
 
 

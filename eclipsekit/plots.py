@@ -26,6 +26,7 @@ __all__ = [
     "plot_velocities",
     "plot_mass_radius_luminosity",
     "plot_analysis",
+    "plot_o_minus_c",
     "save_figure",
 ]
 
@@ -355,3 +356,45 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     for name, fig in figures.items():
         written.update(save_figure(fig, folder, name, formats))
     return written
+
+
+_TERM_LABELS = {"period_change": "period change", "apsidal_motion": "apsidal trend",
+                "light_travel_time": "light-travel-time orbit"}
+
+
+def plot_o_minus_c(times: Any) -> Figure:
+    """O−C diagram of an :class:`~eclipsekit.timings.EclipseTimes`, in minutes against cycle.
+
+    Primary eclipses are filled circles, secondary eclipses open squares (shape and fill, not
+    colour alone); the selected model's terms (:func:`~eclipsekit.ocdiagram.analyse_o_minus_c`)
+    are drawn as a line, dashed for the secondaries when it has an apsidal trend.
+    """
+    fig = _figure(2.6)
+    ax = fig.add_subplot()
+    table = times.table
+    kinds = np.asarray(table["eclipse"])
+    cycle = np.asarray(table["cycle"], float)
+    oc = np.asarray(table["o_minus_c"], float) * 1440.0
+    err = np.asarray(table["time_uncertainty"], float) * 1440.0
+    styles = {"primary": dict(marker="o", mfc=PALETTE["blue"], mec=PALETTE["blue"], label="primary"),
+              "secondary": dict(marker="s", mfc="white", mec=PALETTE["vermillion"], label="secondary")}
+    for kind, style in styles.items():
+        sel = kinds == kind
+        if sel.any():
+            ax.errorbar(cycle[sel], oc[sel], yerr=err[sel], ls="none", ms=3, mew=0.7, elinewidth=0.5,
+                        ecolor=style["mec"], **style)
+    curves = getattr(times.oc, "curves", None) or {}
+    selected = [_TERM_LABELS[t] for t in getattr(times.oc, "selected_terms", ())]
+    if selected and "primary" in curves:
+        label = "selected model: " + " + ".join(selected)
+        if not all(getattr(times.oc, t)["detected"] for t in times.oc.selected_terms):
+            label += " (not all detected)"
+        ax.plot(curves["cycle"], curves["primary"] * 1440.0, color=PALETTE["black"], lw=0.9, label=label)
+        if "apsidal_motion" in times.oc.selected_terms and "secondary" in curves:
+            ax.plot(curves["cycle"], curves["secondary"] * 1440.0, color=PALETTE["vermillion"], ls="--", lw=0.9,
+                    label="selected model, secondary")
+    ax.axhline(0.0, color=_DATA, lw=0.5)
+    ax.set_xlabel("Cycle")
+    ax.set_ylabel("O − C (min)")
+    ax.legend(loc="best", frameon=False)
+    return fig

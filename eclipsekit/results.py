@@ -426,3 +426,65 @@ def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: 
     fit["warnings"] = warnings_
     content["fit"] = fit
     return content
+
+
+# -- eclipse timings (eclipsekit timings; run --timings) -----------------------------------------
+#: Units of the quantities of timings.json (astropy unit strings), by key.
+TIMING_UNITS = {
+    "period": "d", "t0": "d", "secondary_offset": "d", "quadratic_term": "d", "dp_de": "d / cycle", "dp_dt": "",
+    "trend_difference": "d / cycle", "secondary_displacement": "d", "ecosw_from_timing": "",
+    "omega_dot": "deg / cycle", "semi_amplitude": "d", "phase": "deg", "mass_function": "solMass",
+    "a12_sin_i": "AU",
+}
+_LTT_KEYS = ("semi_amplitude", "period", "phase", "mass_function", "a12_sin_i")
+
+
+def _timing_section(values: Mapping[str, Any]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in values.items():
+        if isinstance(value, tuple) and len(value) == 2:
+            out[key] = quantity(value[0], value[1], TIMING_UNITS.get(key, ""))
+        elif isinstance(value, (bool, np.bool_)):
+            out[key] = bool(value)
+        elif isinstance(value, (int, float, np.integer, np.floating)):
+            out[key] = finite_or_none(value) if not isinstance(value, (int, np.integer)) else int(value)
+        else:
+            out[key] = value
+    return out
+
+
+def timings_dict(times: Any, command: str | None = None) -> dict[str, Any]:
+    """The ``timings.json`` content of an :class:`~eclipsekit.timings.EclipseTimes`."""
+    table = times.table
+    kinds = np.asarray(table["eclipse"]) if len(table) else np.zeros(0, str)
+    out: dict[str, Any] = {
+        "eclipsekit_version": __version__,
+        "command": command,
+        "status": times.status,
+        "message": times.message,
+        "input": {"light_curve": times.source, "time_system": times.time_system, "method": times.method,
+                  "n_timed": {"primary": int(np.sum(kinds == "primary")),
+                              "secondary": int(np.sum(kinds == "secondary"))},
+                  "n_skipped": {k: int(v) for k, v in times.skipped.items()},
+                  "reference_ephemeris": {"period": quantity(times.reference["period"], None, "d"),
+                                          "t0": quantity(times.reference["t0"], None, "d")}},
+    }
+    oc = times.oc
+    if oc is None:
+        missing = {"note": times.message}
+        out["ephemeris"] = dict(missing)
+        out["period_change"] = dict(missing)
+        out["apsidal_motion"] = dict(missing)
+        out["light_travel_time"] = {**{k: quantity(None, None, TIMING_UNITS[k]) for k in _LTT_KEYS},
+                                    "delta_chi_square": None, "delta_bic": None, "p_value": None,
+                                    "detected": False, **missing}
+    else:
+        out["ephemeris"] = _timing_section(oc.ephemeris)
+        out["ephemeris"]["time_system"] = times.time_system
+        out["ephemeris"]["error_scale"] = finite_or_none(oc.error_scale)
+        out["period_change"] = _timing_section(oc.period_change)
+        out["apsidal_motion"] = _timing_section(oc.apsidal_motion)
+        out["light_travel_time"] = _timing_section(oc.light_travel_time)
+        out["selected_terms"] = list(oc.selected_terms)
+    out["warnings"] = list(times.warnings)
+    return out
