@@ -353,7 +353,7 @@ def _make_bands(t, y, dy, freq, *, binned=True) -> list[_Band]:
 
 def _periodograms(bands, freq, *, do_bls, do_pdm, n_jobs, progress):
     """Run both coarse periodograms over all bands on a thread pool; returns (power, duration, theta)."""
-    from tqdm import tqdm
+    from ._progress import progress_bar
 
     power = np.full(freq.size, np.nan)
     dur = np.full(freq.size, np.nan)
@@ -381,7 +381,7 @@ def _periodograms(bands, freq, *, do_bls, do_pdm, n_jobs, progress):
         return pdm_theta(b.t - b.t[0], b.y, freq[ii], n_bins=b.n_bins, n_covers=2)
 
     with ThreadPoolExecutor(max(1, n_jobs)) as ex, \
-            tqdm(total=len(tasks), disable=not progress, desc="period search", unit="chunk", leave=False) as bar:
+            progress_bar(total=len(tasks), progress=progress, desc="period search", unit="chunk", leave=False) as bar:
         futs = {ex.submit(run, task): task for task in tasks}
         for fut in as_completed(futs):
             kind, b, ii = futs[fut]

@@ -49,11 +49,14 @@ def test_write_atomic_keeps_old_file_on_failure(tmp_path):
 
 
 def test_output_dir_rules(tmp_path):
-    assert prepare_output_dir(tmp_path / "new").is_dir()
+    # checked, not made: the folder appears complete at the end of a run (output_folder)
+    assert prepare_output_dir(tmp_path / "a" / "new") == tmp_path / "a" / "new"
+    assert (tmp_path / "a").is_dir() and not (tmp_path / "a" / "new").exists()
+    assert list((tmp_path / "a").iterdir()) == []   # the writability probe is gone
     full = tmp_path / "full"
     full.mkdir()
     (full / "x.txt").write_text("keep me")
-    with pytest.raises(InputError, match="not empty; use --overwrite"):
+    with pytest.raises(InputError, match="not empty; use `overwrite` or another `out`"):
         prepare_output_dir(full)
     assert prepare_output_dir(full, overwrite=True) == full
     assert (full / "x.txt").read_text() == "keep me"
