@@ -78,13 +78,19 @@ def output_folder(path: str | os.PathLike, *, overwrite: bool = False,
 
     Yields the staging folder to write into.  On a normal exit the files are moved into
     ``path`` (see the module's rule) with a manifest of them; on an exception the staging
-    folder is removed and ``path`` is left as it was.
+    folder is removed and ``path`` is left as it was.  An ``OSError`` on a staged file is
+    raised again naming ``path``.
     """
     out = prepare_output_dir(path, overwrite=overwrite)
     stage = _new_stage(out)
     try:
         yield stage
         _commit(stage, out, command)
+    except OSError as exc:
+        if exc.filename is None or str(stage) not in str(exc.filename):
+            raise
+        # name the output folder, not the hidden staging file (e.g. a full disk while writing)
+        raise OSError(exc.errno, exc.strerror, str(out)) from exc
     finally:
         shutil.rmtree(stage, ignore_errors=True)
 

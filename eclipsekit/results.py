@@ -173,7 +173,8 @@ def result_dict(analysis: Any) -> dict[str, Any]:
         out["absolute"]["uncertainty_budget"] = dict(getattr(analysis.dimensions, "budget", {}) or {})
     out["fit"] = _fit_section(analysis)
     if search is not None:
-        out["period_search"] = search.to_dict()
+        # wall-clock timings are no result: left out, so that the same input and seed give the same file
+        out["period_search"] = {k: v for k, v in search.to_dict().items() if k != "timings"}
     return out
 
 
