@@ -129,8 +129,9 @@ def _dimension_options(p: argparse.ArgumentParser, joint: bool = False) -> None:
 def _output_options(p: argparse.ArgumentParser, default: str | None) -> None:
     g = p.add_argument_group("output")
     g.add_argument("--out", default=default, metavar="DIR", help=f"output folder (default: {default})")
-    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder: replaces the files an earlier "
-                   "run wrote there, keeps all others")
+    g.add_argument("--overwrite", action="store_true",
+                   help="write into an existing, non-empty folder: replaces the files an earlier run wrote there, "
+                        "keeps all others")
 
 
 def _read_lc(args: argparse.Namespace):
@@ -450,8 +451,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
     g = p.add_argument_group("output")
     g.add_argument("--out", metavar="DIR", help="also write result files into DIR")
-    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder: replaces the files an earlier "
-                   "run wrote there, keeps all others")
+    g.add_argument("--overwrite", action="store_true",
+                   help="write into an existing, non-empty folder: replaces the files an earlier run wrote there, "
+                        "keeps all others")
     _common(p)
     p.set_defaults(func=_cmd_dimensions)
 
