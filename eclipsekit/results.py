@@ -290,9 +290,11 @@ def write_atomic(path: str | os.PathLike, write: Callable[[str], None]) -> Path:
     try:
         write(str(tmp))
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         if os.path.exists(tmp):
             os.remove(tmp)
+        if isinstance(exc, OSError) and exc.filename is not None and str(tmp) in str(exc.filename):
+            raise OSError(exc.errno, exc.strerror, str(path)) from exc  # name the file, not its hidden temporary
         raise
     return path
 

@@ -263,3 +263,10 @@ def test_manifest_cannot_point_outside_the_folder(tmp_path):
     _run_writing(out, ["summary.txt"], overwrite=True)
     assert outside.read_text() == "keep"
     assert not (out / "result.json").exists()   # the genuine stale entry is removed
+
+
+def test_write_atomic_error_names_the_file_not_its_temporary(tmp_path):
+    target = tmp_path / "missing" / "p.json"
+    with pytest.raises(FileNotFoundError) as info:
+        write_json(target, {"status": "ok"})
+    assert info.value.filename == str(target)
