@@ -117,6 +117,8 @@ def demo_runs(tmp_path_factory):
 
 
 # -- repeatability (issue 13's check) ----------------------------------------------------------
+# Checks of the code against itself, not against an outside reference: the same input and seed must give
+# the same result.json byte for byte (the README's promise), from two processes with different hash seeds.
 def test_demo_repeats_exactly(demo_runs):
     (printed_a, a), (printed_b, b) = demo_runs
     assert (a / "result.json").read_bytes() == (b / "result.json").read_bytes()
@@ -231,6 +233,7 @@ def test_read_only_folder_refused_first(inputs, tmp_path, monkeypatch, capsys):
 
 # -- item 18: the README's example output is what the demo prints --------------------------------
 def test_readme_example_is_a_real_demo_run(demo_runs):
+    # a consistency check of the documentation with the code's output now (no outside reference)
     printed, _ = demo_runs[0]
     readme = (ROOT / "README.md").read_text(encoding="utf-8")
     expected = readme_demo_output.with_block(readme, readme_demo_output.readme_block(printed))
