@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import re
 import shlex
 import sys
@@ -152,6 +153,9 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
 
 
+#: the demo's default random seed: the README's example output is a demo run with it
+DEMO_SEED = 1
+
 #: the --errors choices (eclipsekit.fit.settings.ERROR_METHODS, not imported here to keep --help fast)
 _ERROR_CHOICES = ("auto", "covariance", "mcmc", "permutation")
 
@@ -176,7 +180,9 @@ def _dimension_options(p: argparse.ArgumentParser, joint: bool = False) -> None:
 def _output_options(p: argparse.ArgumentParser, default: str | None) -> None:
     g = p.add_argument_group("output")
     g.add_argument("--out", default=default, metavar="DIR", help=f"output folder (default: {default})")
-    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    g.add_argument("--overwrite", action="store_true",
+                   help="write into an existing, non-empty folder: replaces the files an earlier run wrote there, "
+                        "keeps all others")
 
 
 def _read_lc(args: argparse.Namespace):
@@ -460,7 +466,7 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         joint=getattr(args, "joint", False), coordinates=coordinates,
         velocity_labels=getattr(args, "rv_labels", "auto"), command=args.command_line, fit_options=fit_options,
         **choices)
-    written = analysis.write(args.out, overwrite=True)
+    written = analysis.write(args.out, overwrite=args.overwrite)
     print(_in_option_terms(analysis.summary(), _option_names(args)))
     names = [p.name for p in written.values()]
     if getattr(args, "timings", False):
@@ -509,7 +515,8 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
     text = format_summary(content)
     print(_in_option_terms(text, _option_names(args)))
     if args.out:
-        written = write_dimension_files(args.out, content, text, orbit=orbit, dimensions=dims)
+        written = write_dimension_files(args.out, content, text, orbit=orbit, dimensions=dims,
+                                        overwrite=args.overwrite)
         print()
         print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written)))
     return 0
@@ -645,11 +652,15 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
     g = p.add_argument_group("output")
     g.add_argument("--out", metavar="DIR", help="also write result files into DIR")
-    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    g.add_argument("--overwrite", action="store_true",
+                   help="write into an existing, non-empty folder: replaces the files an earlier run wrote there, "
+                        "keeps all others")
     _common(p)
     p.set_defaults(func=_cmd_dimensions)
 
     p = sub.add_parser("demo", help="run the whole job on the bundled sample of an invented system")
+    p.add_argument("--seed", type=int, default=DEMO_SEED,
+                   help=f"random seed (default: {DEMO_SEED}, so that the demo repeats the README's table exactly)")
     _output_options(p, "eclipsekit-demo")
     _common(p)
     p.set_defaults(func=_cmd_analyse)
@@ -657,7 +668,26 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit code."""
+    """Run the command line; return the exit code.
+
+    When the reader of the output goes away (``eclipsekit inspect FILE | head -1``), exit
+    quietly with code 1, as the Python documentation recommends (``signal`` module, "Note on
+    SIGPIPE"): standard output is pointed at ``os.devnull`` so that the interpreter's final
+    flush cannot fail again.
+    """
+    try:
+        code = _main(argv)
+        sys.stdout.flush()  # inside the try: a closed pipe shows up here, not at interpreter exit
+    except BrokenPipeError:
+        try:
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass  # standard output is no real file (e.g. captured by a test): nothing left to flush
+        return 1
+    return code
+
+
+def _main(argv: Sequence[str] | None) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -686,6 +716,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             names = _option_names(args) if names is None else names
             print(f"eclipsekit: error: {_in_option_terms(str(exc), names)}", file=sys.stderr)
             return 2 if isinstance(exc, InputError) else 1
+        except BrokenPipeError:
+            raise  # main() ends quietly
         except OSError as exc:  # e.g. an output folder that cannot be written
             if debug:
                 raise

@@ -31,7 +31,6 @@ from __future__ import annotations
 import functools
 import math
 import os
-import sys
 import time as _time
 import warnings
 from concurrent.futures import ThreadPoolExecutor, as_completed
@@ -941,15 +940,16 @@ class _Stages:
     """A progress bar over the search's stages (not its chunks), shown only on a terminal."""
 
     def __init__(self, progress: bool, n_stages: int):
-        self.show = bool(progress) and sys.stderr.isatty()
+        self.progress = progress
         self.n_stages = n_stages
         self.bar = None
 
     def __enter__(self) -> "_Stages":
-        if self.show:
-            from tqdm import tqdm
+        from ._progress import progress_bar, show_progress
 
-            self.bar = tqdm(total=self.n_stages, desc="period search", unit="stage", leave=False)
+        if show_progress(self.progress):
+            self.bar = progress_bar(total=self.n_stages, progress=True, desc="period search", unit="stage",
+                                    leave=False)
         return self
 
     def next(self, name: str) -> None:

@@ -98,29 +98,33 @@ class Analysis:
         """Write every result file into the folder ``out``.
 
         Files: ``result.json``, ``parameters.ecsv``, ``light_curve.ecsv``,
-        ``velocities.ecsv`` (with velocities), ``summary.txt`` and the figures.  Each is
-        written to a temporary name and renamed, so an interrupted run leaves no
-        half-written file; ``result.json`` is written last.
+        ``velocities.ecsv`` (with velocities), ``summary.txt``, the figures and the
+        manifest listing them.  They are all written into a hidden staging folder first and
+        put in ``out`` only when complete (:func:`~eclipsekit.results.output_folder`), so
+        an interrupted or failed write leaves the previous result in ``out`` as it was;
+        with ``overwrite``, files an earlier run wrote there and this one did not are
+        removed, the user's own files never.
 
         Returns
         -------
         dict of str -> Path
             The files written, by role.
         """
-        folder = results.prepare_output_dir(out, overwrite=overwrite)
-        content = self.to_dict()
         written: dict[str, Path] = {}
-        written["parameters"] = results.write_table(folder / "parameters.ecsv", results.parameters_table(content))
-        if self.lc is not None:
-            written["light_curve"] = results.write_table(folder / "light_curve.ecsv", self.light_curve_table())
-        if self.rv is not None:
-            written["velocities"] = results.write_table(folder / "velocities.ecsv", self.velocities_table())
-        if figures:
-            for name, path in self.plot(folder, formats=formats).items():
-                written[name] = path
-        written["summary"] = results.write_text(folder / "summary.txt", self.summary())
-        written["result"] = results.write_json(folder / "result.json", content)
-        return written
+        with results.output_folder(out, overwrite=overwrite, command=self.command) as folder:
+            content = self.to_dict()
+            written["parameters"] = results.write_table(folder / "parameters.ecsv",
+                                                        results.parameters_table(content))
+            if self.lc is not None:
+                written["light_curve"] = results.write_table(folder / "light_curve.ecsv", self.light_curve_table())
+            if self.rv is not None:
+                written["velocities"] = results.write_table(folder / "velocities.ecsv", self.velocities_table())
+            if figures:
+                for name, path in self.plot(folder, formats=formats).items():
+                    written[name] = path
+            written["summary"] = results.write_text(folder / "summary.txt", self.summary())
+            written["result"] = results.write_json(folder / "result.json", content)
+        return {role: Path(out) / path.name for role, path in written.items()}
 
     def plot(self, folder: str | os.PathLike | None = None,
              formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Any]:
@@ -504,22 +508,22 @@ def _check_masses(analysis: Analysis) -> None:
 
 
 def write_dimension_files(out: str | os.PathLike, content: dict[str, Any], text: str, *, orbit: Any = None,
-                          dimensions: Any = None) -> list[Path]:
+                          dimensions: Any = None, overwrite: bool = False) -> list[Path]:
     """Write ``result.json``, ``parameters.ecsv``, ``summary.txt``, velocities and figures for ``dimensions``.
 
     The files of ``eclipsekit dimensions``: ``content`` is the read-back result with the
     spectroscopic and absolute sections added (:func:`~eclipsekit.results.dimensions_result`)
-    and ``text`` its summary.
+    and ``text`` its summary.  Written like :meth:`Analysis.write`: all at once, at the end.
     """
-    folder = Path(out)
     analysis = Analysis(lc=None, rv=getattr(orbit, "rv", None), orbit=orbit, dimensions=dimensions)
-    written = [results.write_table(folder / "parameters.ecsv", results.parameters_table(content))]
-    if analysis.rv is not None:
-        written.append(results.write_table(folder / "velocities.ecsv", analysis.velocities_table()))
-    written.extend(analysis.plot(folder).values())
-    written.append(results.write_text(folder / "summary.txt", text))
-    written.append(results.write_json(folder / "result.json", content))
-    return written
+    with results.output_folder(out, overwrite=overwrite, command=content.get("command")) as folder:
+        written = [results.write_table(folder / "parameters.ecsv", results.parameters_table(content))]
+        if analysis.rv is not None:
+            written.append(results.write_table(folder / "velocities.ecsv", analysis.velocities_table()))
+        written.extend(analysis.plot(folder).values())
+        written.append(results.write_text(folder / "summary.txt", text))
+        written.append(results.write_json(folder / "result.json", content))
+    return [Path(out) / path.name for path in written]
 
 
 def write_timing_files(out: str | os.PathLike, times: Any, *, command: str | None = None, figures: bool = True,

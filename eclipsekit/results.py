@@ -2,15 +2,16 @@
 
 Every quantity is written as ``{"value": float, "uncertainty": float | null, "unit": str}``
 (``../shared/DESIGN.md``), with ``"fixed": true`` when it was held fixed and
-``"interval_68": [lower, upper]`` when its central 68% interval is asymmetric.  Files are written under a temporary name in the output
-folder and renamed into place, so an interrupted run never leaves a half-written file.
+``"interval_68": [lower, upper]`` when its central 68% interval is asymmetric.  Each file is
+written under a temporary name and renamed into place, so it is never half written; the
+folder as a whole is filled at the end of a run (:func:`output_folder`, in ``_output_folder.py``).
 """
 
 from __future__ import annotations
 
 import json
 import os
-import tempfile
+import secrets
 from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
@@ -18,6 +19,7 @@ from typing import Any
 import numpy as np
 from astropy.table import Table
 
+from ._output_folder import MANIFEST, output_folder, prepare_output_dir
 from ._validate import finite_or_none
 from ._version import __version__
 from .errors import InputError
@@ -30,6 +32,8 @@ __all__ = [
     "parameters_table",
     "write_atomic",
     "prepare_output_dir",
+    "output_folder",
+    "MANIFEST",
     "load_result",
     "ResultSummary",
     "dimensions_result",
@@ -169,7 +173,8 @@ def result_dict(analysis: Any) -> dict[str, Any]:
         out["absolute"]["uncertainty_budget"] = dict(getattr(analysis.dimensions, "budget", {}) or {})
     out["fit"] = _fit_section(analysis)
     if search is not None:
-        out["period_search"] = search.to_dict()
+        # wall-clock timings are no result: left out, so that the same input and seed give the same file
+        out["period_search"] = {k: v for k, v in search.to_dict().items() if k != "timings"}
     return out
 
 
@@ -287,36 +292,24 @@ def parameters_table(result: Mapping[str, Any]) -> Table:
 
 
 # -- files -------------------------------------------------------------------------
-def prepare_output_dir(path: str | os.PathLike, overwrite: bool = False) -> Path:
-    """Create the output folder; refuse an existing non-empty one unless ``overwrite``."""
-    out = Path(path)
-    if out.exists() and not out.is_dir():
-        raise InputError(f"output folder {str(out)!r} is a file; give a folder name")
-    if out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError(f"output folder {str(out)!r} is not empty; use `overwrite=True` or another folder")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise InputError(f"cannot create output folder {str(out)!r}: {exc.strerror}") from None
-    return out
-
-
 def write_atomic(path: str | os.PathLike, write: Callable[[str], None]) -> Path:
     """Call ``write(tmp_name)`` for a temporary file beside ``path``, then rename it into place.
 
     The rename is atomic on POSIX file systems, so ``path`` is either the old file,
-    absent, or complete — never half written.
+    absent, or complete — never half written.  The temporary file is created by ``write``
+    itself (not made in advance with private permissions), so the file's permissions
+    follow the umask like any file the user makes.
     """
     path = Path(path)
-    suffix = "".join(path.suffixes)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=suffix + ".part", dir=path.parent)
-    os.close(fd)
+    tmp = path.with_name(f".{path.stem}-{secrets.token_hex(8)}{''.join(path.suffixes)}.part")
     try:
-        write(tmp)
+        write(str(tmp))
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         if os.path.exists(tmp):
             os.remove(tmp)
+        if isinstance(exc, OSError) and exc.filename is not None and str(tmp) in str(exc.filename):
+            raise OSError(exc.errno, exc.strerror, str(path)) from exc  # name the file, not its hidden temporary
         raise
     return path
 

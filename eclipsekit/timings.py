@@ -52,7 +52,6 @@ model.
 from __future__ import annotations
 
 import math
-import sys
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -399,7 +398,7 @@ def _kvw_propagated(t: np.ndarray, err: np.ndarray, t_min: float, ks: np.ndarray
 
 # -- all eclipses ---------------------------------------------------------------------------------
 def _measure_all(lc: Any, src: _Source, method: str, progress: bool) -> tuple[list[dict[str, Any]], dict[str, int]]:
-    from tqdm import tqdm
+    from ._progress import progress_bar
 
     t, f, e = lc.time, lc.flux, lc.flux_err
     cadence = lc.cadence
@@ -410,8 +409,7 @@ def _measure_all(lc: Any, src: _Source, method: str, progress: bool) -> tuple[li
         tasks += [(ecl, cyc) for cyc in range(first, last + 1)]
     rows: list[dict[str, Any]] = []
     skipped: dict[str, int] = {}
-    show = progress and sys.stderr.isatty()
-    for ecl, cyc in tqdm(tasks, disable=not show, desc="eclipse times", unit="eclipse", leave=False):
+    for ecl, cyc in progress_bar(tasks, progress=progress, desc="eclipse times", unit="eclipse", leave=False):
         tc = src.t0 + ecl.offset + cyc * src.period
         lo, hi = np.searchsorted(t, [tc - ecl.duration, tc + ecl.duration])
         if hi - lo == 0:

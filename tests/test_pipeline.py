@@ -12,7 +12,7 @@ from astropy.table import Table
 
 from eclipsekit.cli import main
 from eclipsekit.data import sample_paths
-from eclipsekit.results import SECTIONS
+from eclipsekit.results import MANIFEST, SECTIONS
 
 from _brute_force import brute_force_flux
 from _textbook import textbook_velocity
@@ -191,9 +191,11 @@ def test_interrupted_write_leaves_no_result_json(analysis, tmp_path, monkeypatch
     out = tmp_path / "out"
     with pytest.raises(KeyboardInterrupt):
         analysis.write(out)
-    assert not (out / "result.json").exists()
-    assert not list(out.glob("*.part")) and not list(out.glob(".*.part"))
-    # what was written before the interruption is complete and readable
+    # the files are staged in a hidden folder and the folder appears only when all are written:
+    # after the interruption there is neither a folder with some of the files nor the staging folder
+    assert list(tmp_path.iterdir()) == []
+    written = analysis.write(out)   # a complete write afterwards
+    assert {p.name for p in out.iterdir()} == {p.name for p in written.values()} | {MANIFEST}
     Table.read(out / "parameters.ecsv", format="ascii.ecsv")
 
 
