@@ -147,7 +147,7 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--harmonics", type=int, metavar="N",
                    help="orbital harmonics of the fourier/gp baseline (0-4; default: chosen by the BIC)")
     g.add_argument("--mcmc-seconds", type=_positive_float, metavar="S",
-                   help="time budget of the MCMC (default with auto: 60 s per 20,000 points)")
+                   help="time budget of the MCMC (default: none; with a budget, results depend on the machine's speed)")
     g.add_argument("--mcmc-walkers", type=int, default=32, metavar="N", help="MCMC walkers (default: 32)")
     g.add_argument("--mcmc-steps", type=int, default=2000, metavar="N", help="MCMC steps per walker (default: 2000)")
     g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")

@@ -95,7 +95,7 @@ def fit_eclipses(
         cyclic shifts of the residuals, each refitted; Bouma et al. 2009, AJ 137, 4691,
         sect. 4.2; Southworth 2008, MNRAS 386, 1644), which includes correlated noise.
         "auto" (default) uses the covariance when it can be trusted and otherwise an
-        MCMC within ``mcmc_seconds`` (default 60 s per 20,000 points); the reasons are
+        MCMC (its full ``mcmc_steps``, so that a seed repeats it exactly); the reasons are
         in ``diagnostics["errors_reasons"]`` (see
         :func:`eclipsekit.fit.uncertainties.trust.covariance_doubts`).
     fixed : dict, optional
@@ -154,7 +154,8 @@ def fit_eclipses(
         when the data clearly need third light, and otherwise say how much third light
         the data allow and how much it would move the radii (``notes``).
     mcmc_seconds : float, optional
-        Time budget of the MCMC (it stops early, with a warning, when it runs out).
+        Time budget of the MCMC (default none: it stops early, with a warning, when it runs
+        out; the steps run then depend on the machine's speed, so results no longer repeat).
     progress : bool
         Show progress bars (MCMC, permutation).
     seed : int, optional
