@@ -281,7 +281,8 @@ def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[st
 
     The status is "poor_fit" when the model does not describe the data (no clean
     convergence, eclipse residuals above the out-of-eclipse scatter, outliers concentrated
-    in the eclipses), "caution" when a warning says the answer may be biased, else "ok".
+    in the eclipses), "caution" when a warning says the answer may be biased or its MCMC did
+    not mix, else "ok".
     """
     warn, poor, biased = list(warn), [], []
     for kind, msg in validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
@@ -299,6 +300,10 @@ def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[st
         poor.append(warn[-1])
     poor += [w for w in sol.warnings if w.startswith("outlier rejection stopped")]
     biased += [w for w in sol.warnings if w.startswith("covariance matrix is singular")]
+    # an MCMC that did not mix (acceptance outside 0.1-0.8, a chain too short for its autocorrelation time,
+    # stopped at its time budget) gives intervals that cannot be trusted: the coverage runs of a grazing
+    # system showed medians 2-8 sigma off in such chains (scripts/calibrate_errors.py --system grazing)
+    biased += [w for w in warn if w.startswith("MCMC ")]
     if settings.check_limb_darkening and settings.ld_law != "uniform" and not sol.problem.mapping.varies("ld1_1") \
             and not sol.problem.mapping.varies("ld2_1"):
         sol.diagnostics["limb_darkening_check"] = shift = _limb_darkening_check(sol, settings, values, unc)
