@@ -1015,8 +1015,9 @@ def measure_eclipses(lc, period, t0=None) -> PeriodSearch:
     in1 = np.abs(orbital_phase(s.t, P, ev["t0"], -0.5)) < 0.5 * duration / P
     values = _refine_ephemeris(s, ev, in1, reasons)
     if values["period_err"] > 0:
+        off = abs(values["period"] - P) / values["period_err"]
         reasons.append(f"the eclipses alone give P = {values['period']:.7f} ± {values['period_err']:.2g} d "
-                       f"({abs(values['period'] - P) / values['period_err']:.1f}σ from the given value, which is kept)")
+                       f"({off:.1f}σ from the given value, which is kept)")
     values.update(period=P, period_err=math.nan)
     if given_t0 is not None:
         values.update(t0=given_t0, t0_err=math.nan)
