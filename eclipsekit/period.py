@@ -1013,8 +1013,9 @@ def measure_eclipses(lc, period, t0=None) -> PeriodSearch:
                + "): no period search; eclipses measured at it"]
     alternative = _check_given_ephemeris(ev, reasons)
     in1 = np.abs(orbital_phase(s.t, P, ev["t0"], -0.5)) < 0.5 * duration / P
-    values = _refine_ephemeris(s, ev, in1, reasons)
-    if values["period_err"] > 0:
+    eclipse = ev["snr1"] >= SNR_MIN  # without one, a trapezoid fit would only fit noise: box values
+    values = _refine_ephemeris(s, ev, in1, reasons, trapezoids=eclipse)
+    if eclipse and values["period_err"] > 0:
         off = abs(values["period"] - P) / values["period_err"]
         reasons.append(f"the eclipses alone give P = {values['period']:.7f} ± {values['period_err']:.2g} d "
                        f"({off:.1f}σ from the given value, which is kept)")
@@ -1405,15 +1406,17 @@ def _few_eclipses(s: _Setup, ev: dict, alternative: float, reasons: list[str]) -
     return alternative
 
 
-def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) -> dict[str, float]:
-    """Stage 5b: P, t0, depths and durations from a trapezoid fit at full resolution (box values if it fails)."""
+def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str], *,
+                      trapezoids: bool = True) -> dict[str, float]:
+    """Stage 5b: P, t0, depths and durations from a trapezoid fit at full resolution (box values if it fails,
+    or without ``trapezoids``: no eclipse to fit at a given ephemeris)."""
     t = s.t
     df_local = float(min_duty_cycle(ev["period"])) / (s.oversample * s.baseline)
+    fit = None
     try:
-        fit = _fit_trapezoids(t, s.y, s.dy, ev, df_local)
+        fit = _fit_trapezoids(t, s.y, s.dy, ev, df_local) if trapezoids else None
     except Exception as exc:  # pragma: no cover - defensive, reported not hidden
         warnings.warn(f"trapezoid refinement failed ({exc}); using the box-search values", EclipsekitWarning)
-        fit = None
     # the fit's period is bounded to ±4 grid steps (see _fit_trapezoids): an error wider than that
     # window means the data do not constrain it there (a near-singular covariance), so fall back
     window = 4 * df_local * ev["period"] ** 2
@@ -1437,9 +1440,10 @@ def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) 
         d1, d1e, D1 = ev["depth1"], ev["depth1_err"], ev["duration"]
         d2, d2e, D2 = ev["depth2"], ev["depth2_err"], ev["width2"]
         ph2 = ev["phase2"]
-        reasons.append("trapezoid fit failed: values from the box search, errors from the grid step")
-        warnings.warn("trapezoid refinement did not converge; period and t0 errors are grid-based",
-                      EclipsekitWarning)
+        if trapezoids:
+            reasons.append("trapezoid fit failed: values from the box search, errors from the grid step")
+            warnings.warn("trapezoid refinement did not converge; period and t0 errors are grid-based",
+                          EclipsekitWarning)
     return dict(period=float(P), period_err=float(Perr), t0=float(T0 + s.t_ref), t0_err=float(T0err),
                 depth_primary=float(d1), depth_secondary=float(d2), duration_primary=float(D1),
                 duration_secondary=float(D2), phase_secondary=float(ph2), depth_primary_err=float(d1e),
