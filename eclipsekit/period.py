@@ -952,7 +952,7 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
 
 
 @one_blas_thread
-def measure_eclipses(lc, period, t0=None) -> PeriodSearch:
+def measure_eclipses(lc: Any, period: float | u.Quantity, t0: float | u.Quantity | None = None) -> PeriodSearch:
     """Both eclipses at a given ephemeris: the secondary at any phase, depths and widths, no period search.
 
     The eclipsing-binary logic of :func:`find_period` at one period: the best box there (its
