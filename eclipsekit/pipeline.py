@@ -262,7 +262,9 @@ def analyse(
     min_period, max_period : float, optional
         Period search range in days.
     period, t0 : float, optional
-        Skip the period search and start the fit from this ephemeris.
+        Skip the period search and start the fit from this ephemeris; both eclipses are still
+        measured at it (secondary at any phase, widths: :func:`~eclipsekit.period.measure_eclipses`),
+        so eccentric orbits are recognised.  Without ``t0`` the epoch is measured at ``period``.
     exposure_time : float or Quantity, optional
         Integration time of each point (days, or a Quantity).  Defaults to the value
         the reader found in the file header.
@@ -411,12 +413,21 @@ def _read_inputs(lc: LightCurve | str | os.PathLike, velocities: VelocityCurve |
 
 
 def _search_period(analysis: Analysis, options: _RunOptions, period: float | None, t0: float | None) -> Any:
-    """The start of the eclipse fit: the period search, or the ephemeris given.
+    """The start of the eclipse fit: the period search, or the eclipses measured at the ephemeris given.
 
-    When the search finds no eclipse, ``analysis`` records it (status and message).
+    A given ephemeris keeps the binary logic: the secondary eclipse is searched at any phase and
+    both eclipses' widths are measured (:func:`~eclipsekit.period.measure_eclipses`), so that the
+    fit starts from the secondary's phase and recognises an eccentric orbit.  When the search finds
+    no eclipse, ``analysis`` records it (status and message).
     """
     if period is not None:
-        return {"period": float(period), **({"t0": float(t0)} if t0 is not None else {})}
+        from .period import measure_eclipses
+
+        with _Timer(analysis.timings, "eclipses at the given ephemeris"):
+            analysis.search = measure_eclipses(analysis.lc, period, t0)
+        return analysis.search
+    if t0 is not None:
+        raise InputError("`t0` was given without `period`: give both (or neither, to search the period)")
     from .period import find_period
 
     with _Timer(analysis.timings, "period search"):

@@ -341,7 +341,8 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     Returns the figures by name, or, when ``folder`` is given, the paths written.
     """
     figures: dict[str, Figure] = {}
-    if analysis.search is not None:
+    # a given ephemeris has no periodogram
+    if analysis.search is not None and getattr(analysis.search, "method", None) != "given":
         figures["periodograms"] = plot_periodograms(analysis.search, fit=analysis.eclipse_fit)
     if analysis.eclipse_fit is not None:
         figures["light_curve"] = plot_folded_light_curve(analysis.eclipse_fit)
