@@ -582,3 +582,17 @@ def test_t0_without_period_is_refused(eccentric_csv, tmp_path, capsys):
     assert main(["run", str(eccentric_csv), "--t0", "0.88", "--out", str(tmp_path / "out"), "--quiet"]) == 2
     err = capsys.readouterr().err
     assert "--t0" in err and "--period" in err and "Traceback" not in err
+
+
+def test_python_fit_with_given_ephemeris_starts_eccentric(eccentric_csv):
+    # the same through fit_eclipses(lc, period=, t0=) with no start: the eclipses are measured at the given
+    # ephemeris (it started circular before); truth from the brute-force orbit's definition, 3 sigma
+    import eclipsekit as ek
+
+    s, tr = SYSTEMS[ECC], truth(ECC)
+    fit = ek.fit_eclipses(ek.read_light_curve(str(eccentric_csv)), period=s["period"], t0=s["t0"],
+                          errors="covariance", progress=False, seed=2)
+    assert {"ecosw", "esinw"} <= set(fit.free)
+    for key in ("ecosw", "esinw"):
+        assert abs(fit.values[key] - tr[key]) < 3 * fit.uncertainties[key], (key, fit.values[key], tr[key])
+    assert fit.status != "poor_fit", fit.status_reasons

@@ -79,11 +79,16 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
 
 
 def start_values(lc: LightCurve, start: Any, settings: FitSettings) -> dict[str, Any]:
-    """:func:`estimate_start` of ``start``; without a start or ephemeris, of a period search of ``lc``."""
-    if start is None and (settings.period is None or settings.t0 is None):
-        from ..period import find_period  # loaded only when needed (astropy.timeseries)
+    """:func:`estimate_start` of ``start``; without one, of a period search of ``lc``, or with a given
+    ephemeris, of the eclipses measured at it (the secondary at any phase and both widths, so that an
+    eccentric orbit is recognised: :func:`~eclipsekit.period.measure_eclipses`)."""
+    if start is None:
+        from ..period import find_period, measure_eclipses  # loaded only when needed (astropy.timeseries)
 
-        start = find_period(lc, progress=settings.progress)
+        if settings.period is None or settings.t0 is None:
+            start = find_period(lc, progress=settings.progress)
+        else:
+            start = measure_eclipses(lc, settings.period, settings.t0)
     return estimate_start(start if start is not None else {}, period=settings.period, t0=settings.t0)
 
 
