@@ -123,7 +123,7 @@ def test_translation_names_only_options_of_the_command():
     # every Python name translated is an argument of the public API
     arguments = set()
     for function in (ek.read_light_curve, ek.read_velocities, ek.find_period, ek.fit_eclipses, ek.fit_velocities,
-                     ek.absolute_dimensions, ek.analyse, Analysis.write):
+                     ek.absolute_dimensions, ek.analyse, Analysis.write, ek.eclipse_times):
         arguments |= set(inspect.signature(function).parameters)
     assert set(cli._OPTION_OF) <= arguments
     fit_args = parser.parse_args(["fit", "lc.csv"])
