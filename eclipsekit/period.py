@@ -1107,6 +1107,37 @@ def _coherent_bls(s: _Setup, periods: np.ndarray) -> tuple[np.ndarray, np.ndarra
     return power, dur
 
 
+def _coherent_peak(s: _Setup, period: float, seg: float, max_steps: int = 8) -> tuple[float, float]:
+    """Largest coherent box-least-squares power near a segmented-search peak at ``period``, and its period.
+
+    The coherent grid (the full baseline's step) is searched over ±1.5 steps of the segment grid
+    (segment length ``seg``); while the largest power lies on an edge of the searched window, the
+    window is moved on by its width in that direction (at most ``max_steps`` times, inside the
+    search range): a segment peak measured with wide phase bins can lie a few of its own steps
+    from the coherent one.
+    """
+    q = float(min_duty_cycle(period))
+    half = 1.5 * q / (SEGMENT_OVERSAMPLE * seg)
+    step = q / (s.oversample * s.baseline)
+    f_lo, f_hi = 1.0 / s.pmax, 1.0 / s.pmin
+    f = np.arange(max(1.0 / period - half, f_lo), min(1.0 / period + half, f_hi), step)
+    best = (-math.inf, period)
+    for _ in range(max_steps + 1):
+        if f.size == 0:
+            break
+        pw, _ = _coherent_bls(s, 1.0 / f)
+        i = int(np.nanargmax(pw))
+        if pw[i] <= best[0]:
+            break
+        best = (float(pw[i]), float(1.0 / f[i]))
+        if 0 < i < f.size - 1:
+            break
+        # the maximum is on an edge: search the next window beyond it
+        f = f[-1] + step * np.arange(1, f.size + 1) if i else f[0] - step * np.arange(f.size, 0, -1)
+        f = f[(f >= f_lo) & (f <= f_hi)]
+    return best
+
+
 def _refine_segmented(s: _Setup, proposed: list[tuple[float, str]], bands) -> tuple[list[tuple[float, str]], float]:
     """Bring the candidates of a segmented search to the coherent grid; returns the strongest
     :data:`SEGMENT_FOLDS` of them and the significance (SDE) of the best.
@@ -1119,12 +1150,7 @@ def _refine_segmented(s: _Setup, proposed: list[tuple[float, str]], bands) -> tu
     refined = []
     for p, label in proposed:
         seg = next((b[3] for b in bands if b[1] * 0.999 <= p <= b[2] * 1.001), s.baseline)
-        q = float(min_duty_cycle(p))
-        half = 1.5 * q / (SEGMENT_OVERSAMPLE * seg)
-        f = np.arange(1.0 / p - half, 1.0 / p + half, q / (s.oversample * s.baseline))
-        pw, _ = _coherent_bls(s, 1.0 / f[f > 0])
-        i = int(np.nanargmax(pw))
-        refined.append((float(pw[i]), 1.0 / f[f > 0][i], label))
+        refined.append((*_coherent_peak(s, p, seg), label))
     refined.sort(key=lambda r: -r[0])
     rng = np.random.default_rng(0)  # a fixed sample: repeated searches give the same answer
     sample = 1.0 / rng.uniform(1.0 / s.pmax, 1.0 / s.pmin, SDE_SAMPLE)
