@@ -634,7 +634,9 @@ def test_segment_peak_followed_to_the_coherent_maximum(monkeypatch):
     step = q / (5.0 * s.baseline)  # coherent step in frequency (our grid, see test above)
     window = 3 * (1.5 * q / (period_module.SEGMENT_OVERSAMPLE * seg))
     start = 1.0 / (1.0 / period + 4.5 * window)  # four and a half windows off
-    _, found = period_module._coherent_peak(s, start, seg)
+    _, found, on_edge = period_module._coherent_peak(s, start, seg)
+    assert not on_edge
     assert abs(1.0 / found - 1.0 / period) <= step
-    _, stuck = period_module._coherent_peak(s, start, seg, max_steps=0)
+    _, stuck, on_edge = period_module._coherent_peak(s, start, seg, max_steps=0)
+    assert on_edge
     assert abs(1.0 / stuck - 1.0 / period) > window
