@@ -25,7 +25,7 @@ from typing import Callable
 
 import numpy as np
 
-from ._grid import bin_in_time, frequency_grid, min_duty_cycle, trial_durations
+from ._grid import bin_in_time, frequency_grid, trial_durations
 
 __all__ = ["PHASE_BIN_COST", "N_SEGMENTS", "SEGMENT_CYCLES", "duration_groups", "segment_length",
            "segmented_bls"]
