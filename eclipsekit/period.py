@@ -1160,7 +1160,10 @@ def _refine_segmented(s: _Setup, proposed: list[tuple[float, str]], bands) -> tu
     for k, (_, p, on_edge, seg, label) in enumerate(refined[:SEGMENT_FOLDS]):
         if on_edge:
             refined[k] = (*_coherent_peak(s, p, seg), seg, label)
-    refined.sort(key=lambda r: -r[0])
+    # a proposal just beyond the search range has no coherent trial period left: drop it
+    refined = sorted((r for r in refined if math.isfinite(r[0])), key=lambda r: -r[0])
+    if not refined:
+        return [], math.nan
     rng = np.random.default_rng(0)  # a fixed sample: repeated searches give the same answer
     sample = 1.0 / rng.uniform(1.0 / s.pmax, 1.0 / s.pmin, SDE_SAMPLE)
     ref, _ = _coherent_bls(s, sample)

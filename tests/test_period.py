@@ -640,3 +640,18 @@ def test_segment_peak_followed_to_the_coherent_maximum(monkeypatch):
     _, stuck, on_edge = period_module._coherent_peak(s, start, seg, max_steps=0)
     assert on_edge
     assert abs(1.0 / stuck - 1.0 / period) > window
+
+
+def test_proposal_beyond_the_range_is_dropped(monkeypatch):
+    # the coherent refinement searches only inside the search range (10-40 d here): a proposal at 45 d
+    # has no trial period left, so it is dropped rather than refined outside the range, and a search
+    # left without candidates says so (no significance)
+    rng = np.random.default_rng(54)
+    t = np.sort(rng.uniform(0.0, 400.0, 3000))
+    lc = _lc(t, np.ones_like(t), 0.002, rng)
+    monkeypatch.setattr(period_module, "SEGMENT_WORK", 1.0)
+    s = period_module._setup(lc, 10.0, 40.0, 5.0, "bls", 1)
+    power, found, _ = period_module._coherent_peak(s, 45.0, _segments.segment_length(s.baseline, 40.0))
+    assert power == -math.inf and found == 45.0
+    kept, sde = period_module._refine_segmented(s, [(45.0, "outside")], [])
+    assert kept == [] and math.isnan(sde)
