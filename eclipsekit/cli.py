@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import re
 import shlex
 import sys
@@ -139,12 +140,21 @@ def _fit_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--errors", choices=_ERROR_CHOICES, default="auto",
                    help="how uncertainties are estimated (default: auto, the covariance matrix when it can "
                         "be trusted, else an MCMC)")
+    g.add_argument("--baseline", choices=("auto", "polynomial", "fourier", "gp"), default="auto",
+                   help="out-of-eclipse baseline multiplying the eclipses: a polynomial per segment, plus "
+                        "orbital harmonics (fourier), plus a Gaussian process (gp); default: auto, chosen from "
+                        "the out-of-eclipse residuals")
+    g.add_argument("--harmonics", type=int, metavar="N",
+                   help="orbital harmonics of the fourier/gp baseline (0-4; default: chosen by the BIC)")
     g.add_argument("--mcmc-seconds", type=_positive_float, metavar="S",
-                   help="time budget of the MCMC (default with auto: 60 s per 20,000 points)")
+                   help="time budget of the MCMC (default: none; with a budget, results depend on the machine's speed)")
     g.add_argument("--mcmc-walkers", type=int, default=32, metavar="N", help="MCMC walkers (default: 32)")
     g.add_argument("--mcmc-steps", type=int, default=2000, metavar="N", help="MCMC steps per walker (default: 2000)")
     g.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
 
+
+#: the demo's default random seed: the README's example output is a demo run with it
+DEMO_SEED = 1
 
 #: the --errors choices (eclipsekit.fit.settings.ERROR_METHODS, not imported here to keep --help fast)
 _ERROR_CHOICES = ("auto", "covariance", "mcmc", "permutation")
@@ -170,7 +180,9 @@ def _dimension_options(p: argparse.ArgumentParser, joint: bool = False) -> None:
 def _output_options(p: argparse.ArgumentParser, default: str | None) -> None:
     g = p.add_argument_group("output")
     g.add_argument("--out", default=default, metavar="DIR", help=f"output folder (default: {default})")
-    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    g.add_argument("--overwrite", action="store_true",
+                   help="write into an existing, non-empty folder: replaces the files an earlier run wrote there, "
+                        "keeps all others")
 
 
 def _read_lc(args: argparse.Namespace):
@@ -295,7 +307,8 @@ def _floats(option: str, tokens: list[str] | None) -> list[float] | None:
 #: Python argument names in the package's messages -> the command-line options that set them.  The
 #: package names Python arguments in backticks (`err_col`, `priors['x']`, `overwrite=True`); the
 #: command line shows the option instead, when the command has it (see _in_option_terms).
-_OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--prior", "errors": "--errors",
+_OPTION_OF = {"baseline": "--baseline", "harmonics": "--harmonics",
+              "free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--prior", "errors": "--errors",
               "mcmc_seconds": "--mcmc-seconds", "mcmc_walkers": "--mcmc-walkers", "mcmc_steps": "--mcmc-steps",
               "exposure_time": "--exposure-time", "supersample": "--supersample", "ld_law": "--ld-law",
               "ld_primary": "--ld1", "ld_secondary": "--ld2", "period": "--period", "t0": "--t0",
@@ -308,7 +321,8 @@ _OPTION_OF = {"free": "--free", "fix": "--fix", "fixed": "--fix", "priors": "--p
               "orbit": "--rv", "overwrite": "--overwrite",
               "rv1_col": "--rv1-col", "rv1_err_col": "--rv1-err-col", "rv2_col": "--rv2-col",
               "rv2_err_col": "--rv2-err-col", "coordinates": "--coordinates", "labels": "--rv-labels",
-              "velocity_labels": "--rv-labels"}
+              "velocity_labels": "--rv-labels", "method": "--method",
+              "fit_or_ephemeris": "--from"}
 
 #: Python values in messages -> what the option takes (`err_col=False` is --err-col none)
 _OPTION_VALUE = {"True": "", "False": "none", "None": "none"}
@@ -428,8 +442,8 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         choices = _fit_choices(args)
         fit_options = {"ld_law": args.ld_law, "ld_primary": _floats("--ld1", args.ld1),
                        "ld_secondary": _floats("--ld2", args.ld2), "mcmc_walkers": args.mcmc_walkers,
-                       "mcmc_steps": args.mcmc_steps}
-        for option in ("supersample", "mcmc_seconds"):
+                       "mcmc_steps": args.mcmc_steps, "baseline": args.baseline}
+        for option in ("supersample", "mcmc_seconds", "harmonics"):
             if getattr(args, option) is not None:
                 fit_options[option] = getattr(args, option)
         lc = _read_lc(args)
@@ -452,10 +466,13 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         joint=getattr(args, "joint", False), coordinates=coordinates,
         velocity_labels=getattr(args, "rv_labels", "auto"), command=args.command_line, fit_options=fit_options,
         **choices)
-    written = analysis.write(args.out, overwrite=True)
+    written = analysis.write(args.out, overwrite=args.overwrite)
     print(_in_option_terms(analysis.summary(), _option_names(args)))
+    names = [p.name for p in written.values()]
+    if getattr(args, "timings", False):
+        names += _run_timings(args, analysis)
     print()
-    print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
+    print(f"Results written to {args.out}/: " + ", ".join(sorted(names)))
     # "poor_fit" and "caution" are answers with a caveat (on the summary's first line); the rest did not conclude
     return 0 if analysis.status in ("ok", "poor_fit", "caution") else 1
 
@@ -498,10 +515,71 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
     text = format_summary(content)
     print(_in_option_terms(text, _option_names(args)))
     if args.out:
-        written = write_dimension_files(args.out, content, text, orbit=orbit, dimensions=dims)
+        written = write_dimension_files(args.out, content, text, orbit=orbit, dimensions=dims,
+                                        overwrite=args.overwrite)
         print()
         print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written)))
     return 0
+
+
+def _cmd_timings(args: argparse.Namespace) -> int:
+    """Times of minimum and the O−C analysis, from a result.json, an ephemeris, or a fit made here."""
+    from .pipeline import write_timing_files
+    from .results import load_result, prepare_output_dir
+    from .timings import eclipse_times
+
+    if args.from_result is not None and (args.period is not None or args.t0 is not None):
+        raise InputError("give either --from RESULT.json or --period/--t0, not both")
+    if (args.period is None) != (args.t0 is None):
+        raise InputError("give both --period and --t0 (or neither, to search and fit first)")
+    lc = _read_lc(args)
+    prepare_output_dir(args.out, overwrite=args.overwrite)  # refuse a bad folder before the long work
+    if args.from_result is not None:
+        source = load_result(args.from_result)
+    elif args.period is not None and args.method == "kvw":
+        source = {"period": args.period, "t0": args.t0}   # the model-free method needs no fit
+    else:
+        analysis = _analysis_for_timings(args, lc)
+        if analysis.eclipse_fit is None:
+            print(analysis.summary())
+            return 1
+        source = analysis.eclipse_fit
+    times = eclipse_times(lc, source, method=args.method, progress=not args.quiet)
+    written = write_timing_files(args.out, times, command=args.command_line)
+    print(times.summary())
+    print()
+    print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
+    return 0 if times.status == "ok" else 1
+
+
+def _analysis_for_timings(args: argparse.Namespace, lc: Any) -> Any:
+    """The period search (unless --period) and the eclipse fit, as `run` does them."""
+    from .pipeline import analyse
+
+    exposure = None if args.exposure_time is None else args.exposure_time / 86400.0
+    fit_options = {"ld_law": args.ld_law, "ld_primary": _floats("--ld1", args.ld1),
+                   "ld_secondary": _floats("--ld2", args.ld2), "mcmc_walkers": args.mcmc_walkers,
+                   "mcmc_steps": args.mcmc_steps}
+    for option in ("supersample", "mcmc_seconds"):
+        if getattr(args, option) is not None:
+            fit_options[option] = getattr(args, option)
+    return analyse(lc, min_period=args.min_period, max_period=args.max_period, period=args.period, t0=args.t0,
+                   exposure_time=exposure, errors=args.errors, progress=not args.quiet, seed=args.seed,
+                   command=args.command_line, fit_options=fit_options, **_fit_choices(args))
+
+
+def _run_timings(args: argparse.Namespace, analysis: Any) -> list[str]:
+    """`run --timings`: time the eclipses with the run's fit and write the timing files beside its results."""
+    from .pipeline import write_timing_files
+    from .timings import eclipse_times
+
+    if analysis.eclipse_fit is None:
+        return []
+    times = eclipse_times(analysis.lc, analysis.eclipse_fit, progress=not args.quiet)
+    written = write_timing_files(args.out, times, command=args.command_line)
+    print()
+    print(times.summary())
+    return [p.name for p in written.values()]
 
 
 # ---- parser ------------------------------------------------------------------------
@@ -544,10 +622,28 @@ def build_parser() -> argparse.ArgumentParser:
         if with_dimensions:
             _dimension_options(p, joint=True)
             _velocity_reader_options(p)
+            p.add_argument("--timings", action="store_true",
+                           help="also time every eclipse and write the O-C analysis (as `eclipsekit timings`)")
         _output_options(p, "eclipsekit-results")
         _common(p)
         p.set_defaults(func=_cmd_analyse)
         p.usage = p.format_usage().removeprefix("usage: ").replace("[FILE]", "FILE").strip()
+
+    p = sub.add_parser("timings", help="times of minimum of every eclipse, O-C diagram, period change, "
+                                      "third-body light-travel time")
+    p.add_argument("file", nargs="?", metavar="FILE", help="light-curve file (required)")
+    p.add_argument("--from", dest="from_result", metavar="RESULT", help="result.json of `fit` or `run`: its "
+                   "eclipse model times the eclipses (default: search and fit first, as `run`)")
+    p.add_argument("--method", choices=["model", "kvw"], default=None,
+                   help="model: the fitted eclipse model moved in time (default); kvw: Kwee & van Woerden "
+                        "1956 (with --period/--t0 it needs no fit)")
+    _reader_options(p)
+    _period_options(p)
+    _fit_options(p)
+    _output_options(p, "eclipsekit-timings")
+    _common(p)
+    p.set_defaults(func=_cmd_timings)
+    p.usage = p.format_usage().removeprefix("usage: ").replace("[FILE]", "FILE").strip()
 
     p = sub.add_parser("dimensions", help="masses, radii, gravities (and luminosities) from a result.json")
     p.add_argument("result", help="result.json written by `eclipsekit fit` or `run`")
@@ -556,11 +652,15 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, help="random seed, for repeatable sampling")
     g = p.add_argument_group("output")
     g.add_argument("--out", metavar="DIR", help="also write result files into DIR")
-    g.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    g.add_argument("--overwrite", action="store_true",
+                   help="write into an existing, non-empty folder: replaces the files an earlier run wrote there, "
+                        "keeps all others")
     _common(p)
     p.set_defaults(func=_cmd_dimensions)
 
     p = sub.add_parser("demo", help="run the whole job on the bundled sample of an invented system")
+    p.add_argument("--seed", type=int, default=DEMO_SEED,
+                   help=f"random seed (default: {DEMO_SEED}, so that the demo repeats the README's table exactly)")
     _output_options(p, "eclipsekit-demo")
     _common(p)
     p.set_defaults(func=_cmd_analyse)
@@ -568,7 +668,26 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit code."""
+    """Run the command line; return the exit code.
+
+    When the reader of the output goes away (``eclipsekit inspect FILE | head -1``), exit
+    quietly with code 1, as the Python documentation recommends (``signal`` module, "Note on
+    SIGPIPE"): standard output is pointed at ``os.devnull`` so that the interpreter's final
+    flush cannot fail again.
+    """
+    try:
+        code = _main(argv)
+        sys.stdout.flush()  # inside the try: a closed pipe shows up here, not at interpreter exit
+    except BrokenPipeError:
+        try:
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass  # standard output is no real file (e.g. captured by a test): nothing left to flush
+        return 1
+    return code
+
+
+def _main(argv: Sequence[str] | None) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -576,7 +695,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(exc.code or 0)
     debug = getattr(args, "debug", False)
     args.command_line = _command_line(argv)
-    if args.command in ("fit", "run"):
+    if args.command in ("fit", "run", "timings"):
         try:
             _recover_file(args)
         except InputError as exc:
@@ -597,6 +716,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             names = _option_names(args) if names is None else names
             print(f"eclipsekit: error: {_in_option_terms(str(exc), names)}", file=sys.stderr)
             return 2 if isinstance(exc, InputError) else 1
+        except BrokenPipeError:
+            raise  # main() ends quietly
         except OSError as exc:  # e.g. an output folder that cannot be written
             if debug:
                 raise

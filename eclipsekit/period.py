@@ -31,7 +31,6 @@ from __future__ import annotations
 import functools
 import math
 import os
-import sys
 import time as _time
 import warnings
 from concurrent.futures import ThreadPoolExecutor, as_completed
@@ -53,7 +52,7 @@ from ._threads import one_blas_thread
 from .errors import EclipsekitWarning, InputError, NoEclipseFound
 from .orbit import orbital_phase
 
-__all__ = ["PeriodSearch", "find_period", "SDE_THRESHOLD", "PDM_SDE_THRESHOLD"]
+__all__ = ["PeriodSearch", "find_period", "measure_eclipses", "SDE_THRESHOLD", "PDM_SDE_THRESHOLD"]
 
 _METHODS = {"both", "bls", "pdm"}
 
@@ -110,6 +109,9 @@ SDE_SAMPLE = 1000
 #: Largest trial grid: 1e7 periods (a default search over a 10-year, 3,650 d baseline has
 #: ~2e6).  Beyond it a search takes hours; the caller is asked to narrow the range.
 MAX_TRIAL_PERIODS = 1e7
+#: Grid density behind a given ephemeris's trapezoid fit (its period window, see :func:`_fit_trapezoids`):
+#: the default ``oversample`` of :func:`find_period`.
+GIVEN_OVERSAMPLE = 5.0
 
 
 # ----------------------------------------------------------------------------------------
@@ -117,7 +119,7 @@ MAX_TRIAL_PERIODS = 1e7
 # ----------------------------------------------------------------------------------------
 @dataclass(frozen=True, eq=False)
 class PeriodSearch:
-    """Outcome of :func:`find_period`.
+    """Outcome of :func:`find_period`, or of :func:`measure_eclipses` at a given ephemeris.
 
     Attributes
     ----------
@@ -147,6 +149,10 @@ class PeriodSearch:
         levels fitted).
     pdm_periods, pdm_theta : ndarray
         Coarse PDM periodogram (θ, lower is better).
+    method : {'both', 'bls', 'pdm', 'given'}
+        Periodograms used, or "given" when the ephemeris was given and only the eclipses
+        were measured at it (:func:`measure_eclipses`: no periodograms, no uncertainty
+        on what was given).
     """
 
     period: float
@@ -209,7 +215,9 @@ class PeriodSearch:
         """A readable multi-line report."""
         from .summary import format_value
 
-        lines = ["Period search (box least squares + phase dispersion minimisation)"]
+        given = self.method == "given"
+        lines = ["Eclipses at the given ephemeris (no period search)" if given else
+                 "Period search (box least squares + phase dispersion minimisation)"]
         if not self.found:
             lines.append("  no significant periodic eclipse found")
         else:
@@ -228,10 +236,11 @@ class PeriodSearch:
                 lines.append("  secondary         not detected")
             if self.ambiguous and np.isfinite(self.alternative_period):
                 lines.append(f"  ambiguous with    {format_value(self.alternative_period, digits=9)} d")
-        lines.append(f"  significance      SDE {self.significance:.1f} (threshold {self.sde_threshold:.1f})")
-        lines.append(f"  grid              {self.n_periods} periods, {self.min_period:.4g}-{self.max_period:.4g} d, "
-                     f"oversample {self.oversample:g}, method {self.method}"
-                     + (", daily sampling window" if self.daily_window else ""))
+        if not given:
+            lines.append(f"  significance      SDE {self.significance:.1f} (threshold {self.sde_threshold:.1f})")
+            lines.append(f"  grid              {self.n_periods} periods, {self.min_period:.4g}-{self.max_period:.4g} d, "
+                         f"oversample {self.oversample:g}, method {self.method}"
+                         + (", daily sampling window" if self.daily_window else ""))
         lines.append("  reasoning: " + self.reasoning)
         return "\n".join(lines)
 
@@ -271,6 +280,7 @@ class PeriodSearch:
             "n_eclipses_secondary": int(self.n_eclipses_secondary),
             "reasoning": self.reasoning,
             "method": self.method,
+            "ephemeris_given": self.method == "given",
             "grid": {"min_period": num(self.min_period), "max_period": num(self.max_period),
                      "oversample": num(self.oversample), "n_periods": int(self.n_periods),
                      "daily_window": bool(self.daily_window)},
@@ -629,11 +639,14 @@ def _evaluate(t, y, w, period, t0, duration, *, pdm_n=None):
                 dchi2=float(dchi2), pdm_theta=float(th[0]), pdm_theta_2p=float(th2))
 
 
-def _local_bls(t, y, dy, period, *, oversample, baseline, n_jobs=1):
-    """Box least squares at full resolution on a local grid ±3 coarse steps wide, 10× finer."""
+def _local_bls(t, y, dy, period, *, oversample, baseline, n_jobs=1, fixed_period=False):
+    """Box least squares at full resolution on a local grid ±3 coarse steps wide, 10× finer.
+
+    With ``fixed_period`` only ``period`` itself is tried (best epoch and duration at a given period).
+    """
     f0 = 1.0 / period
     df = float(min_duty_cycle(period)) / (oversample * baseline)  # coarse step near f0
-    freqs = f0 + df * np.linspace(-3, 3, 61)
+    freqs = np.array([f0]) if fixed_period else f0 + df * np.linspace(-3, 3, 61)
     freqs = freqs[freqs > 0]
     periods = 1.0 / freqs
     pmin = periods.min()
@@ -937,19 +950,125 @@ def find_period(lc, *, min_period=None, max_period=None, oversample: float = 5.0
         n_eclipses_secondary=int(ev["n_events2"]), **common)
 
 
+@one_blas_thread
+def measure_eclipses(lc: Any, period: float | u.Quantity, t0: float | u.Quantity | None = None) -> PeriodSearch:
+    """Both eclipses at a given ephemeris: the secondary at any phase, depths and widths, no period search.
+
+    The eclipsing-binary logic of :func:`find_period` at one period: the best box there (its
+    duration, and the epoch when ``t0`` is not given), the primary dip's extent, the secondary
+    eclipse searched at any phase, odd and even depths, then a trapezoid fit of both eclipses
+    for their depths, durations and the secondary's phase, from which the eclipse fit's start
+    recognises an eccentric orbit (:func:`~eclipsekit.fit.estimate_start`).
+
+    Parameters
+    ----------
+    lc : LightCurve
+        Normalised light curve.
+    period : float or Quantity
+        Orbital period (days).  Kept as given: it is a start value of the eclipse fit.
+    t0 : float or Quantity, optional
+        Time of mid-primary eclipse (days), kept as given.  Default: measured (centre of the
+        best box at ``period``, refined by the trapezoid fit).
+
+    Returns
+    -------
+    PeriodSearch
+        ``method`` "given"; ``period`` (and ``t0`` when given) as given, without uncertainty;
+        no periodograms (``significance`` NaN).  ``reasoning`` also says what the eclipses
+        alone give for the period.
+
+    Raises
+    ------
+    InputError
+        ``lc`` not a light curve, or a bad ``period`` or ``t0``.
+
+    Warns
+    -----
+    EclipsekitWarning
+        No significant dip at ``t0``; a secondary deeper than the primary (``t0`` is then the
+        shallower eclipse); odd and even eclipses of unequal depth (the period may be twice
+        that given; the answer is then flagged ambiguous).
+
+    References
+    ----------
+    .. [1] Kovács, G., Zucker, S., Mazeh, T. 2002, A&A, 391, 369 (box least squares)
+    """
+    for attr in ("time", "flux", "flux_err"):
+        if not hasattr(lc, attr):
+            raise InputError("`lc` must be a LightCurve (use eclipsekit.read_light_curve)")
+    P = as_float(period, "period", u.day, positive=True)
+    given_t0 = as_float(t0, "t0", u.day, allow_none=True)
+    t_abs, y, dy = (np.asarray(getattr(lc, a), float) for a in ("time", "flux", "flux_err"))
+    t_ref = float(t_abs[0])
+    s = _Setup(t_abs=t_abs, t=t_abs - t_ref, y=y, dy=dy, w=1.0 / dy ** 2, t_ref=t_ref,
+               baseline=max(float(t_abs[-1] - t_ref), P), pmin=P, pmax=P, oversample=GIVEN_OVERSAMPLE, n_jobs=1,
+               method="given")
+    clock = _time.perf_counter()
+    _, epoch, duration, power, _ = _local_bls(s.t, y, dy, P, oversample=s.oversample, baseline=s.baseline,
+                                              fixed_period=True)
+    ev = _evaluate(s.t, y, s.w, P, epoch if given_t0 is None else given_t0 - t_ref, duration)
+    ev.update(source="given ephemeris", bls_power=power)
+    reasons = [f"ephemeris given (P = {P:.7g} d" + ("" if given_t0 is None else f", t0 = {given_t0:.7f}")
+               + "): no period search; eclipses measured at it"]
+    alternative = _check_given_ephemeris(ev, reasons)
+    in1 = np.abs(orbital_phase(s.t, P, ev["t0"], -0.5)) < 0.5 * duration / P
+    eclipse = ev["snr1"] >= SNR_MIN  # without one, a trapezoid fit would only fit noise: box values
+    values = _refine_ephemeris(s, ev, in1, reasons, trapezoids=eclipse)
+    if eclipse and values["period_err"] > 0:
+        off = abs(values["period"] - P) / values["period_err"]
+        reasons.append(f"the eclipses alone give P = {values['period']:.7f} ± {values['period_err']:.2g} d "
+                       f"({off:.1f}σ from the given value, which is kept)")
+    values.update(period=P, period_err=math.nan)
+    if given_t0 is not None:
+        values.update(t0=given_t0, t0_err=math.nan)
+    return PeriodSearch(
+        **values, significance=math.nan, reasoning="; ".join(reasons) + ".", candidates=_table([ev], 0, t_ref),
+        bls_periods=np.empty(0), bls_power=np.empty(0), pdm_periods=np.empty(0), pdm_theta=np.empty(0),
+        secondary_detected=bool(ev["secondary"]), secondary_snr=float(ev["snr2"]),
+        odd_even_sigma=float(ev["odd_even_sigma"]), alternative_period=alternative,
+        ambiguous=bool(np.isfinite(alternative)), sde_threshold=math.nan, n_eclipses_primary=int(ev["n_events1"]),
+        n_eclipses_secondary=int(ev["n_events2"]), method="given", min_period=P, max_period=P,
+        oversample=s.oversample, n_periods=1, timings={"eclipses": _time.perf_counter() - clock})
+
+
+def _check_given_ephemeris(ev: dict, reasons: list[str]) -> float:
+    """Warn when the data disagree with a given ephemeris; returns the alternative period (2P or NaN)."""
+    def note(message: str) -> None:
+        warnings.warn(message, EclipsekitWarning, stacklevel=3)
+        reasons.append(message)
+
+    P = ev["period"]
+    if not ev["snr1"] >= SNR_MIN:
+        note(f"no significant eclipse at the given `t0` and `period` (primary box depth {ev['snr1']:.1f}σ "
+             f"< {SNR_MIN:g}σ): check them, or omit them to search the period")
+    elif ev["secondary"] and ev["depth2"] - ev["depth1"] > 3 * math.hypot(ev["depth1_err"], ev["depth2_err"]):
+        note(f"the eclipse at phase {ev['phase2']:.4f} is deeper than the one at the given `t0`: t0 should be "
+             "the time of the deeper (primary) eclipse")
+    if ev["secondary"]:
+        reasons.append(f"secondary eclipse at phase {ev['phase2']:.4f} ({ev['snr2']:.1f}σ)")
+    else:
+        reasons.append(f"no secondary eclipse at any phase (best dip {ev['snr2']:.1f}σ < {SECONDARY_SNR:g}σ)")
+    if np.isfinite(ev["odd_even_sigma"]) and ev["odd_even_sigma"] > ODD_EVEN_SIGMA:
+        note(f"odd and even eclipses at the given `period` differ in depth by {ev['odd_even_sigma']:.1f}σ: "
+             f"the period is probably twice that given ({2 * P:.7g} d)")
+        return 2.0 * P
+    return math.nan
+
+
 class _Stages:
     """A progress bar over the search's stages (not its chunks), shown only on a terminal."""
 
     def __init__(self, progress: bool, n_stages: int):
-        self.show = bool(progress) and sys.stderr.isatty()
+        self.progress = progress
         self.n_stages = n_stages
         self.bar = None
 
     def __enter__(self) -> "_Stages":
-        if self.show:
-            from tqdm import tqdm
+        from ._progress import progress_bar, show_progress
 
-            self.bar = tqdm(total=self.n_stages, desc="period search", unit="stage", leave=False)
+        if show_progress(self.progress):
+            self.bar = progress_bar(total=self.n_stages, progress=True, desc="period search", unit="stage",
+                                    leave=False)
         return self
 
     def next(self, name: str) -> None:
@@ -1325,15 +1444,17 @@ def _few_eclipses(s: _Setup, ev: dict, alternative: float, reasons: list[str]) -
     return alternative
 
 
-def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) -> dict[str, float]:
-    """Stage 5b: P, t0, depths and durations from a trapezoid fit at full resolution (box values if it fails)."""
+def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str], *,
+                      trapezoids: bool = True) -> dict[str, float]:
+    """Stage 5b: P, t0, depths and durations from a trapezoid fit at full resolution (box values if it fails,
+    or without ``trapezoids``: no eclipse to fit at a given ephemeris)."""
     t = s.t
     df_local = float(min_duty_cycle(ev["period"])) / (s.oversample * s.baseline)
+    fit = None
     try:
-        fit = _fit_trapezoids(t, s.y, s.dy, ev, df_local)
+        fit = _fit_trapezoids(t, s.y, s.dy, ev, df_local) if trapezoids else None
     except Exception as exc:  # pragma: no cover - defensive, reported not hidden
         warnings.warn(f"trapezoid refinement failed ({exc}); using the box-search values", EclipsekitWarning)
-        fit = None
     # the fit's period is bounded to ±4 grid steps (see _fit_trapezoids): an error wider than that
     # window means the data do not constrain it there (a near-singular covariance), so fall back
     window = 4 * df_local * ev["period"] ** 2
@@ -1357,9 +1478,10 @@ def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str]) 
         d1, d1e, D1 = ev["depth1"], ev["depth1_err"], ev["duration"]
         d2, d2e, D2 = ev["depth2"], ev["depth2_err"], ev["width2"]
         ph2 = ev["phase2"]
-        reasons.append("trapezoid fit failed: values from the box search, errors from the grid step")
-        warnings.warn("trapezoid refinement did not converge; period and t0 errors are grid-based",
-                      EclipsekitWarning)
+        if trapezoids:
+            reasons.append("trapezoid fit failed: values from the box search, errors from the grid step")
+            warnings.warn("trapezoid refinement did not converge; period and t0 errors are grid-based",
+                          EclipsekitWarning)
     return dict(period=float(P), period_err=float(Perr), t0=float(T0 + s.t_ref), t0_err=float(T0err),
                 depth_primary=float(d1), depth_secondary=float(d2), duration_primary=float(D1),
                 duration_secondary=float(D2), phase_secondary=float(ph2), depth_primary_err=float(d1e),

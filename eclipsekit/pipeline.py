@@ -26,7 +26,7 @@ from .errors import EclipsekitWarning, InputError, NoEclipseFound
 from .orbit import orbital_phase
 from .summary import format_summary
 
-__all__ = ["Analysis", "analyse", "write_dimension_files", "LONG_CADENCE"]
+__all__ = ["Analysis", "analyse", "write_dimension_files", "write_timing_files", "LONG_CADENCE"]
 
 #: Cadence (days) above which unsmeared eclipse models are biased; 10 minutes.
 LONG_CADENCE = 10.0 / 1440.0
@@ -98,29 +98,33 @@ class Analysis:
         """Write every result file into the folder ``out``.
 
         Files: ``result.json``, ``parameters.ecsv``, ``light_curve.ecsv``,
-        ``velocities.ecsv`` (with velocities), ``summary.txt`` and the figures.  Each is
-        written to a temporary name and renamed, so an interrupted run leaves no
-        half-written file; ``result.json`` is written last.
+        ``velocities.ecsv`` (with velocities), ``summary.txt``, the figures and the
+        manifest listing them.  They are all written into a hidden staging folder first and
+        put in ``out`` only when complete (:func:`~eclipsekit.results.output_folder`), so
+        an interrupted or failed write leaves the previous result in ``out`` as it was;
+        with ``overwrite``, files an earlier run wrote there and this one did not are
+        removed, the user's own files never.
 
         Returns
         -------
         dict of str -> Path
             The files written, by role.
         """
-        folder = results.prepare_output_dir(out, overwrite=overwrite)
-        content = self.to_dict()
         written: dict[str, Path] = {}
-        written["parameters"] = results.write_table(folder / "parameters.ecsv", results.parameters_table(content))
-        if self.lc is not None:
-            written["light_curve"] = results.write_table(folder / "light_curve.ecsv", self.light_curve_table())
-        if self.rv is not None:
-            written["velocities"] = results.write_table(folder / "velocities.ecsv", self.velocities_table())
-        if figures:
-            for name, path in self.plot(folder, formats=formats).items():
-                written[name] = path
-        written["summary"] = results.write_text(folder / "summary.txt", self.summary())
-        written["result"] = results.write_json(folder / "result.json", content)
-        return written
+        with results.output_folder(out, overwrite=overwrite, command=self.command) as folder:
+            content = self.to_dict()
+            written["parameters"] = results.write_table(folder / "parameters.ecsv",
+                                                        results.parameters_table(content))
+            if self.lc is not None:
+                written["light_curve"] = results.write_table(folder / "light_curve.ecsv", self.light_curve_table())
+            if self.rv is not None:
+                written["velocities"] = results.write_table(folder / "velocities.ecsv", self.velocities_table())
+            if figures:
+                for name, path in self.plot(folder, formats=formats).items():
+                    written[name] = path
+            written["summary"] = results.write_text(folder / "summary.txt", self.summary())
+            written["result"] = results.write_json(folder / "result.json", content)
+        return {role: Path(out) / path.name for role, path in written.items()}
 
     def plot(self, folder: str | os.PathLike | None = None,
              formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Any]:
@@ -228,6 +232,7 @@ def analyse(
     t0: float | None = None,
     exposure_time: Any = None,
     errors: str = "auto",
+    baseline: str = "auto",
     fix: tuple[str, ...] = (),
     free: tuple[str, ...] = (),
     fixed: dict[str, Any] | None = None,
@@ -257,13 +262,18 @@ def analyse(
     min_period, max_period : float, optional
         Period search range in days.
     period, t0 : float, optional
-        Skip the period search and start the fit from this ephemeris.
+        Skip the period search and start the fit from this ephemeris; both eclipses are still
+        measured at it (secondary at any phase, widths: :func:`~eclipsekit.period.measure_eclipses`),
+        so eccentric orbits are recognised.  Without ``t0`` the epoch is measured at ``period``.
     exposure_time : float or Quantity, optional
         Integration time of each point (days, or a Quantity).  Defaults to the value
         the reader found in the file header.
     errors : {'auto', 'covariance', 'mcmc', 'permutation'}
         How the eclipse fit's uncertainties are estimated; "auto" uses the covariance
         matrix when it can be trusted, else an MCMC (see :func:`~eclipsekit.fit_eclipses`).
+    baseline : {'auto', 'polynomial', 'fourier', 'gp'}
+        Out-of-eclipse baseline of the eclipse fit (see :func:`~eclipsekit.fit_eclipses`);
+        "auto" chooses it from the out-of-eclipse residuals and says so in the fit's notes.
     fix, free : sequence of str
         Eclipse-fit parameters to hold fixed at their start values, or to fit.
     fixed : dict, optional
@@ -324,7 +334,7 @@ def analyse(
             lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
             exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free),
             fixed=dict(fixed or {}), priors=dict(priors or {}), progress=progress, seed=seed, joint=joint,
-            velocity_labels=velocity_labels, fit_options=dict(fit_options or {}))
+            velocity_labels=velocity_labels, fit_options={"baseline": baseline, **dict(fit_options or {})})
         start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
             _fit_light_curve(analysis, start, options)
@@ -403,12 +413,21 @@ def _read_inputs(lc: LightCurve | str | os.PathLike, velocities: VelocityCurve |
 
 
 def _search_period(analysis: Analysis, options: _RunOptions, period: float | None, t0: float | None) -> Any:
-    """The start of the eclipse fit: the period search, or the ephemeris given.
+    """The start of the eclipse fit: the period search, or the eclipses measured at the ephemeris given.
 
-    When the search finds no eclipse, ``analysis`` records it (status and message).
+    A given ephemeris keeps the binary logic: the secondary eclipse is searched at any phase and
+    both eclipses' widths are measured (:func:`~eclipsekit.period.measure_eclipses`), so that the
+    fit starts from the secondary's phase and recognises an eccentric orbit.  When the search finds
+    no eclipse, ``analysis`` records it (status and message).
     """
     if period is not None:
-        return {"period": float(period), **({"t0": float(t0)} if t0 is not None else {})}
+        from .period import measure_eclipses
+
+        with _Timer(analysis.timings, "eclipses at the given ephemeris"):
+            analysis.search = measure_eclipses(analysis.lc, period, t0)
+        return analysis.search
+    if t0 is not None:
+        raise InputError("`t0` was given without `period`: give both (or neither, to search the period)")
     from .period import find_period
 
     with _Timer(analysis.timings, "period search"):
@@ -500,21 +519,42 @@ def _check_masses(analysis: Analysis) -> None:
 
 
 def write_dimension_files(out: str | os.PathLike, content: dict[str, Any], text: str, *, orbit: Any = None,
-                          dimensions: Any = None) -> list[Path]:
+                          dimensions: Any = None, overwrite: bool = False) -> list[Path]:
     """Write ``result.json``, ``parameters.ecsv``, ``summary.txt``, velocities and figures for ``dimensions``.
 
     The files of ``eclipsekit dimensions``: ``content`` is the read-back result with the
     spectroscopic and absolute sections added (:func:`~eclipsekit.results.dimensions_result`)
-    and ``text`` its summary.
+    and ``text`` its summary.  Written like :meth:`Analysis.write`: all at once, at the end.
     """
-    folder = Path(out)
     analysis = Analysis(lc=None, rv=getattr(orbit, "rv", None), orbit=orbit, dimensions=dimensions)
-    written = [results.write_table(folder / "parameters.ecsv", results.parameters_table(content))]
-    if analysis.rv is not None:
-        written.append(results.write_table(folder / "velocities.ecsv", analysis.velocities_table()))
-    written.extend(analysis.plot(folder).values())
-    written.append(results.write_text(folder / "summary.txt", text))
-    written.append(results.write_json(folder / "result.json", content))
+    with results.output_folder(out, overwrite=overwrite, command=content.get("command")) as folder:
+        written = [results.write_table(folder / "parameters.ecsv", results.parameters_table(content))]
+        if analysis.rv is not None:
+            written.append(results.write_table(folder / "velocities.ecsv", analysis.velocities_table()))
+        written.extend(analysis.plot(folder).values())
+        written.append(results.write_text(folder / "summary.txt", text))
+        written.append(results.write_json(folder / "result.json", content))
+    return [Path(out) / path.name for path in written]
+
+
+def write_timing_files(out: str | os.PathLike, times: Any, *, command: str | None = None, figures: bool = True,
+                       formats: tuple[str, ...] = ("png", "pdf")) -> dict[str, Path]:
+    """Write ``eclipse_times.ecsv``, the O−C figure, ``timings.txt`` and (last) ``timings.json`` into ``out``.
+
+    The files of ``eclipsekit timings`` and ``run --timings`` for an
+    :class:`~eclipsekit.timings.EclipseTimes`; the folder must exist
+    (:func:`~eclipsekit.results.prepare_output_dir`); each file is written atomically.
+    """
+    from . import plots
+    from .summary import format_timings
+
+    folder = Path(out)
+    content = results.timings_dict(times, command=command)
+    written = {"eclipse_times": results.write_table(folder / "eclipse_times.ecsv", times.table)}
+    if figures and len(times.table):
+        written.update(plots.save_figure(plots.plot_o_minus_c(times), folder, "o_minus_c", formats))
+    written["timings_summary"] = results.write_text(folder / "timings.txt", format_timings(content))
+    written["timings"] = results.write_json(folder / "timings.json", content)
     return written
 
 

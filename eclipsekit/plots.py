@@ -26,6 +26,7 @@ __all__ = [
     "plot_velocities",
     "plot_mass_radius_luminosity",
     "plot_analysis",
+    "plot_o_minus_c",
     "save_figure",
 ]
 
@@ -167,8 +168,23 @@ def _eclipse_geometry(fit: Any) -> dict[str, float]:
     }
 
 
+def _baseline_panel(ax: Any, x: np.ndarray, fit: Any, near: np.ndarray | None = None) -> None:
+    """The fitted baseline (relative to its median, ppt) and the flux divided by the eclipse model."""
+    sel = slice(None) if near is None else near
+    level = float(np.median(fit.baseline))
+    out = fit.lc.flux / fit.model(fit.lc.time) / level - 1.0
+    ax.plot(x[sel], 1e3 * out[sel], ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True)
+    ax.plot(x[sel], 1e3 * (fit.baseline[sel] / level - 1.0), ".", ms=1.2, color=PALETTE["orange"],
+            rasterized=True, label="baseline")
+    ax.set_ylabel("Baseline (ppt)")
+
+
 def plot_folded_light_curve(fit: Any) -> Figure:
-    """Detrended light curve folded on the fitted period, with the model and the residuals."""
+    """Detrended light curve folded on the fitted period, with the model, the baseline and the residuals.
+
+    The middle panel shows the baseline that multiplies the eclipse model (polynomial,
+    orbital harmonics and/or Gaussian process) over the flux divided by the eclipse model.
+    """
     v = fit.values
     period, t0 = v["period"], v["t0"]
     time = fit.lc.time
@@ -178,8 +194,9 @@ def plot_folded_light_curve(fit: Any) -> Figure:
     grid_phase = np.linspace(-0.25, 0.75, 4001)
     grid_model = fit.model(t0 + grid_phase * period)
 
-    fig = _figure(3.4)
-    ax1, ax2 = fig.subplots(2, 1, sharex=True, height_ratios=[3, 1])
+    fig = _figure(4.2)
+    ax1, axb, ax2 = fig.subplots(3, 1, sharex=True, height_ratios=[3, 1, 1])
+    _baseline_panel(axb, phase, fit)
     ax1.plot(phase, flux, ".", ms=1.0, color=_DATA, alpha=0.5, rasterized=True, label="data")
     bx, by = _binned(phase, flux, 400, -0.25, 0.75)
     ax1.plot(bx, by, ".", ms=2.0, color=PALETTE["blue"], label="binned")
@@ -200,22 +217,23 @@ def plot_folded_light_curve(fit: Any) -> Figure:
 
 
 def plot_eclipses(fit: Any) -> Figure:
-    """Close-ups of the primary and secondary eclipses with the model and residuals."""
+    """Close-ups of the primary and secondary eclipses with the model, the baseline under them and residuals."""
     v = fit.values
     period, t0 = v["period"], v["t0"]
     geom = _eclipse_geometry(fit)
     time = fit.lc.time
     flux = fit.detrended_flux
     resid = flux - fit.model(time)
-    fig = _figure(3.2, width=2 * _COLUMN * 0.95)
-    axes = fig.subplots(2, 2, sharex="col", height_ratios=[3, 1])
+    fig = _figure(3.9, width=2 * _COLUMN * 0.95)
+    axes = fig.subplots(3, 2, sharex="col", height_ratios=[3, 1, 1])
     centres = (0.0, geom["phase_secondary"])
     widths = (geom["width_primary"], geom["width_secondary"])
     for col, (name, centre, width) in enumerate(zip(("Primary", "Secondary"), centres, widths)):
         half = 0.8 * width if width > 0 else 0.05
         phase = orbital_phase(time, period, t0, start=centre - 0.5) - centre
         near = np.abs(phase) < half
-        top, bottom = axes[0, col], axes[1, col]
+        top, bottom = axes[0, col], axes[2, col]
+        _baseline_panel(axes[1, col], phase, fit, near)
         grid = np.linspace(-half, half, 1500)
         top.plot(phase[near], flux[near], ".", ms=1.2, color=_DATA, alpha=0.6, rasterized=True)
         bx, by = _binned(phase[near], flux[near], 120, -half, half)
@@ -230,7 +248,8 @@ def plot_eclipses(fit: Any) -> Figure:
             lim = 5 * max(np.std(resid[near]), 1e-6) * 1e3
             bottom.set_ylim(-lim, lim)
     axes[0, 0].set_ylabel("Relative flux")
-    axes[1, 0].set_ylabel("O−C (ppt)")
+    axes[2, 0].set_ylabel("O−C (ppt)")
+    axes[1, 1].set_ylabel("")
     return fig
 
 
@@ -322,7 +341,8 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     Returns the figures by name, or, when ``folder`` is given, the paths written.
     """
     figures: dict[str, Figure] = {}
-    if analysis.search is not None:
+    # a given ephemeris has no periodogram
+    if analysis.search is not None and getattr(analysis.search, "method", None) != "given":
         figures["periodograms"] = plot_periodograms(analysis.search, fit=analysis.eclipse_fit)
     if analysis.eclipse_fit is not None:
         figures["light_curve"] = plot_folded_light_curve(analysis.eclipse_fit)
@@ -337,3 +357,45 @@ def plot_analysis(analysis: Any, folder: str | os.PathLike | None = None,
     for name, fig in figures.items():
         written.update(save_figure(fig, folder, name, formats))
     return written
+
+
+_TERM_LABELS = {"period_change": "period change", "apsidal_motion": "apsidal trend",
+                "light_travel_time": "light-travel-time orbit"}
+
+
+def plot_o_minus_c(times: Any) -> Figure:
+    """O−C diagram of an :class:`~eclipsekit.timings.EclipseTimes`, in minutes against cycle.
+
+    Primary eclipses are filled circles, secondary eclipses open squares (shape and fill, not
+    colour alone); the selected model's terms (:func:`~eclipsekit.ocdiagram.analyse_o_minus_c`)
+    are drawn as a line, dashed for the secondaries when it has an apsidal trend.
+    """
+    fig = _figure(2.6)
+    ax = fig.add_subplot()
+    table = times.table
+    kinds = np.asarray(table["eclipse"])
+    cycle = np.asarray(table["cycle"], float)
+    oc = np.asarray(table["o_minus_c"], float) * 1440.0
+    err = np.asarray(table["time_uncertainty"], float) * 1440.0
+    styles = {"primary": dict(marker="o", mfc=PALETTE["blue"], mec=PALETTE["blue"], label="primary"),
+              "secondary": dict(marker="s", mfc="white", mec=PALETTE["vermillion"], label="secondary")}
+    for kind, style in styles.items():
+        sel = kinds == kind
+        if sel.any():
+            ax.errorbar(cycle[sel], oc[sel], yerr=err[sel], ls="none", ms=3, mew=0.7, elinewidth=0.5,
+                        ecolor=style["mec"], **style)
+    curves = getattr(times.oc, "curves", None) or {}
+    selected = [_TERM_LABELS[t] for t in getattr(times.oc, "selected_terms", ())]
+    if selected and "primary" in curves:
+        label = "selected model: " + " + ".join(selected)
+        if not all(getattr(times.oc, t)["detected"] for t in times.oc.selected_terms):
+            label += " (not all detected)"
+        ax.plot(curves["cycle"], curves["primary"] * 1440.0, color=PALETTE["black"], lw=0.9, label=label)
+        if "apsidal_motion" in times.oc.selected_terms and "secondary" in curves:
+            ax.plot(curves["cycle"], curves["secondary"] * 1440.0, color=PALETTE["vermillion"], ls="--", lw=0.9,
+                    label="selected model, secondary")
+    ax.axhline(0.0, color=_DATA, lw=0.5)
+    ax.set_xlabel("Cycle")
+    ax.set_ylabel("O − C (min)")
+    ax.legend(loc="best", frameon=False)
+    return fig

@@ -2,15 +2,16 @@
 
 Every quantity is written as ``{"value": float, "uncertainty": float | null, "unit": str}``
 (``../shared/DESIGN.md``), with ``"fixed": true`` when it was held fixed and
-``"interval_68": [lower, upper]`` when its central 68% interval is asymmetric.  Files are written under a temporary name in the output
-folder and renamed into place, so an interrupted run never leaves a half-written file.
+``"interval_68": [lower, upper]`` when its central 68% interval is asymmetric.  Each file is
+written under a temporary name and renamed into place, so it is never half written; the
+folder as a whole is filled at the end of a run (:func:`output_folder`, in ``_output_folder.py``).
 """
 
 from __future__ import annotations
 
 import json
 import os
-import tempfile
+import secrets
 from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
@@ -18,6 +19,7 @@ from typing import Any
 import numpy as np
 from astropy.table import Table
 
+from ._output_folder import MANIFEST, output_folder, prepare_output_dir
 from ._validate import finite_or_none
 from ._version import __version__
 from .errors import InputError
@@ -30,6 +32,8 @@ __all__ = [
     "parameters_table",
     "write_atomic",
     "prepare_output_dir",
+    "output_folder",
+    "MANIFEST",
     "load_result",
     "ResultSummary",
     "dimensions_result",
@@ -169,7 +173,8 @@ def result_dict(analysis: Any) -> dict[str, Any]:
         out["absolute"]["uncertainty_budget"] = dict(getattr(analysis.dimensions, "budget", {}) or {})
     out["fit"] = _fit_section(analysis)
     if search is not None:
-        out["period_search"] = search.to_dict()
+        # wall-clock timings are no result: left out, so that the same input and seed give the same file
+        out["period_search"] = {k: v for k, v in search.to_dict().items() if k != "timings"}
     return out
 
 
@@ -241,6 +246,11 @@ def _fit_section(analysis: Any) -> dict[str, Any]:
         "status_reasons": list(getattr(fit, "status_reasons", []) or []),
         "notes": list(getattr(fit, "notes", []) or []) + _velocity_notes(analysis),
     })
+    for key in ("baseline", "noise_model", "gp_hyperparameters"):  # what the fit decided (see notes)
+        found = fit.diagnostics.get(key)
+        if found:
+            section[key] = {k: (finite_or_none(v) if isinstance(v, (int, float, np.floating)) and not
+                                isinstance(v, bool) else v) for k, v in found.items() if k != "note"}
     mcmc = fit.diagnostics.get("mcmc")
     if mcmc:
         section["mcmc"] = {k: (finite_or_none(v) if isinstance(v, (int, float, np.floating)) else v)
@@ -282,36 +292,24 @@ def parameters_table(result: Mapping[str, Any]) -> Table:
 
 
 # -- files -------------------------------------------------------------------------
-def prepare_output_dir(path: str | os.PathLike, overwrite: bool = False) -> Path:
-    """Create the output folder; refuse an existing non-empty one unless ``overwrite``."""
-    out = Path(path)
-    if out.exists() and not out.is_dir():
-        raise InputError(f"output folder {str(out)!r} is a file; give a folder name")
-    if out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise InputError(f"output folder {str(out)!r} is not empty; use `overwrite=True` or another folder")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise InputError(f"cannot create output folder {str(out)!r}: {exc.strerror}") from None
-    return out
-
-
 def write_atomic(path: str | os.PathLike, write: Callable[[str], None]) -> Path:
     """Call ``write(tmp_name)`` for a temporary file beside ``path``, then rename it into place.
 
     The rename is atomic on POSIX file systems, so ``path`` is either the old file,
-    absent, or complete — never half written.
+    absent, or complete — never half written.  The temporary file is created by ``write``
+    itself (not made in advance with private permissions), so the file's permissions
+    follow the umask like any file the user makes.
     """
     path = Path(path)
-    suffix = "".join(path.suffixes)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=suffix + ".part", dir=path.parent)
-    os.close(fd)
+    tmp = path.with_name(f".{path.stem}-{secrets.token_hex(8)}{''.join(path.suffixes)}.part")
     try:
-        write(tmp)
+        write(str(tmp))
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         if os.path.exists(tmp):
             os.remove(tmp)
+        if isinstance(exc, OSError) and exc.filename is not None and str(tmp) in str(exc.filename):
+            raise OSError(exc.errno, exc.strerror, str(path)) from exc  # name the file, not its hidden temporary
         raise
     return path
 
@@ -421,3 +419,65 @@ def dimensions_result(light: ResultSummary, orbit: Any, dimensions: Any, notes: 
     fit["warnings"] = warnings_
     content["fit"] = fit
     return content
+
+
+# -- eclipse timings (eclipsekit timings; run --timings) -----------------------------------------
+#: Units of the quantities of timings.json (astropy unit strings), by key.
+TIMING_UNITS = {
+    "period": "d", "t0": "d", "secondary_offset": "d", "quadratic_term": "d", "dp_de": "d / cycle", "dp_dt": "",
+    "trend_difference": "d / cycle", "secondary_displacement": "d", "ecosw_from_timing": "",
+    "omega_dot": "deg / cycle", "semi_amplitude": "d", "phase": "deg", "mass_function": "solMass",
+    "a12_sin_i": "AU",
+}
+_LTT_KEYS = ("semi_amplitude", "period", "phase", "mass_function", "a12_sin_i")
+
+
+def _timing_section(values: Mapping[str, Any]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in values.items():
+        if isinstance(value, tuple) and len(value) == 2:
+            out[key] = quantity(value[0], value[1], TIMING_UNITS.get(key, ""))
+        elif isinstance(value, (bool, np.bool_)):
+            out[key] = bool(value)
+        elif isinstance(value, (int, float, np.integer, np.floating)):
+            out[key] = finite_or_none(value) if not isinstance(value, (int, np.integer)) else int(value)
+        else:
+            out[key] = value
+    return out
+
+
+def timings_dict(times: Any, command: str | None = None) -> dict[str, Any]:
+    """The ``timings.json`` content of an :class:`~eclipsekit.timings.EclipseTimes`."""
+    table = times.table
+    kinds = np.asarray(table["eclipse"]) if len(table) else np.zeros(0, str)
+    out: dict[str, Any] = {
+        "eclipsekit_version": __version__,
+        "command": command,
+        "status": times.status,
+        "message": times.message,
+        "input": {"light_curve": times.source, "time_system": times.time_system, "method": times.method,
+                  "n_timed": {"primary": int(np.sum(kinds == "primary")),
+                              "secondary": int(np.sum(kinds == "secondary"))},
+                  "n_skipped": {k: int(v) for k, v in times.skipped.items()},
+                  "reference_ephemeris": {"period": quantity(times.reference["period"], None, "d"),
+                                          "t0": quantity(times.reference["t0"], None, "d")}},
+    }
+    oc = times.oc
+    if oc is None:
+        missing = {"note": times.message}
+        out["ephemeris"] = dict(missing)
+        out["period_change"] = dict(missing)
+        out["apsidal_motion"] = dict(missing)
+        out["light_travel_time"] = {**{k: quantity(None, None, TIMING_UNITS[k]) for k in _LTT_KEYS},
+                                    "delta_chi_square": None, "delta_bic": None, "p_value": None,
+                                    "detected": False, **missing}
+    else:
+        out["ephemeris"] = _timing_section(oc.ephemeris)
+        out["ephemeris"]["time_system"] = times.time_system
+        out["ephemeris"]["error_scale"] = finite_or_none(oc.error_scale)
+        out["period_change"] = _timing_section(oc.period_change)
+        out["apsidal_motion"] = _timing_section(oc.apsidal_motion)
+        out["light_travel_time"] = _timing_section(oc.light_travel_time)
+        out["selected_terms"] = list(oc.selected_terms)
+    out["warnings"] = list(times.warnings)
+    return out

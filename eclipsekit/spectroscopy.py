@@ -380,7 +380,7 @@ def fit_velocities(
     rv, label_state = _choose_labels(rv, ephemeris, options, labels, info, notes)
     data = _Velocities.from_curve(rv)
     problem, result, jitter_result, noise_model = _fit_noise_model(data, ephemeris, options, jitter, info, notes)
-    setup, params = problem.setup, result.params
+    setup = problem.setup
     pv = result.params.valuesdict()
     if not result.success:
         notes.warn(f"the velocity fit did not converge: {result.message}")

@@ -7,7 +7,7 @@ from collections.abc import Mapping
 from typing import Any
 
 
-__all__ = ["ASYMMETRY", "DIGITS", "LABELS", "short_label", "is_asymmetric", "has_uncertainty", "format_value", "format_summary"]
+__all__ = ["ASYMMETRY", "DIGITS", "LABELS", "short_label", "is_asymmetric", "has_uncertainty", "format_value", "format_summary", "format_timings"]
 
 #: A 68% interval is asymmetric when its two sides differ by more than this fraction of the
 #: larger one (below that, the sampling noise of a few thousand draws and the two-figure
@@ -104,6 +104,8 @@ def format_value(value: float | None, uncertainty: float | None = None, *, digit
     '12346'
     >>> format_value(3.14159265358979, None, digits=11)
     '3.1415926536'
+    >>> format_value(0.26, 0.0996)
+    '0.26 ± 0.10'
     >>> format_value(0.312, 0.02, interval=(0.301, 0.345))
     '0.312 +0.033/-0.011'
     """
@@ -129,8 +131,15 @@ def has_uncertainty(value: float, uncertainty: float | None) -> bool:
 
 
 def _decimals(uncertainty: float) -> int:
-    """Decimal places that show ``uncertainty`` to two significant figures (at most 12)."""
-    return min(max(0, 1 - int(math.floor(math.log10(uncertainty)))), 12)
+    """Decimal places that show ``uncertainty`` to two significant figures (at most 12).
+
+    Rounding can carry into the next decade (0.0996 -> 0.100): then one place fewer (0.10).
+    """
+    decimals = min(max(0, 1 - int(math.floor(math.log10(uncertainty)))), 12)
+    rounded = round(uncertainty, decimals)
+    if decimals > 0 and rounded > 0 and 1 - int(math.floor(math.log10(rounded))) < decimals:
+        decimals -= 1
+    return decimals
 
 
 #: significant figures of a value held fixed: enough to show the value given
@@ -207,3 +216,62 @@ def _fit_lines(fit: Mapping[str, Any]) -> list[str]:
         lines += ["", "Warnings"]
         lines.extend(f"  - {w}" for w in fit["warnings"])
     return lines
+
+
+# -- eclipse timings -------------------------------------------------------------------------------
+_TIMING_ROWS = (
+    ("ephemeris", "period", "Period"), ("ephemeris", "t0", "Epoch of primary minimum"),
+    ("ephemeris", "secondary_offset", "Primary to secondary minimum"),
+    ("period_change", "dp_de", "dP/dE"), ("period_change", "dp_dt", "dP/dt"),
+    ("apsidal_motion", "trend_difference", "Secondary minus primary period"),
+    ("apsidal_motion", "ecosw_from_timing", "e cos(omega) from timing"),
+    ("apsidal_motion", "omega_dot", "d(omega)/dE"),
+    ("light_travel_time", "semi_amplitude", "Light-time semi-amplitude"),
+    ("light_travel_time", "period", "Third-body period"), ("light_travel_time", "phase", "Light-time phase"),
+    ("light_travel_time", "mass_function", "Third-body mass function"),
+)
+_TESTS = (("period_change", "Period change"), ("apsidal_motion", "Apsidal trend"),
+          ("light_travel_time", "Third body (light time)"))
+
+
+def _small(q: Mapping[str, Any]) -> str:
+    """A quantity as ``value ± uncertainty``; tiny numbers with a power of ten."""
+    value, err = q.get("value"), q.get("uncertainty")
+    if value is not None and value != 0 and abs(value) < 1e-3 and math.isfinite(value):
+        power = int(math.floor(math.log10(abs(value))))
+        scale = 10.0 ** power
+        return f"({format_value(value / scale, None if err is None else err / scale)})e{power}"
+    return format_value(value, err, digits=11)
+
+
+def format_timings(content: Mapping[str, Any]) -> str:
+    """The summary of a ``timings.json`` dict, as printed by ``eclipsekit timings`` (``timings.txt``)."""
+    inp = content.get("input") or {}
+    timed = inp.get("n_timed") or {}
+    lines = [f"Eclipse timings, status {content.get('status')} ({inp.get('method')} method): "
+             f"{timed.get('primary', 0)} primary and {timed.get('secondary', 0)} secondary eclipses timed, "
+             f"time system {inp.get('time_system')}"]
+    if content.get("message"):
+        lines.append(f"  {content['message']}")
+    for reason, n in (inp.get("n_skipped") or {}).items():
+        lines.append(f"  skipped {n}: {reason}")
+    lines += ["", f"{'quantity':<34}{'value ± uncertainty':>34}  unit"]
+    for section, key, label in _TIMING_ROWS:
+        q = (content.get(section) or {}).get(key)
+        if isinstance(q, Mapping) and q.get("value") is not None:
+            lines.append(f"{label:<34}{_small(q):>34}  {q.get('unit', '')}")
+    selected = " + ".join(content.get("selected_terms") or []) or "none"
+    lines += ["", f"Terms beyond the linear ephemeris; selected (lowest BIC): {selected}",
+              "each tested against the selected model without it (detected: ΔBIC > 10):"]
+    for section, label in _TESTS:
+        block = content.get(section) or {}
+        if block.get("delta_chi_square") is None:
+            lines.append(f"  {label:<26} not tested: {block.get('note', '')}")
+            continue
+        word = "DETECTED" if block.get("detected") else "not significant"
+        lines.append(f"  {label:<26} {word}: Δχ² = {block['delta_chi_square']:.1f}, ΔBIC = {block['delta_bic']:.1f}, "
+                     f"p = {block['p_value']:.2g}")
+    notes = [(content.get(s) or {}).get("note") for s, _ in _TESTS]
+    lines += [f"note: {n}" for n in dict.fromkeys(n for n in notes if n)]
+    lines += [f"warning: {w}" for w in content.get("warnings") or []]
+    return "\n".join(lines)

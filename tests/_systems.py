@@ -37,6 +37,10 @@ SYSTEMS: dict[str, dict] = {
     "grazing": dict(period=2268 * CADENCE, t0=0.64, radius_sum=0.20, radius_ratio=0.82, inclination=80.4,
                     surface_brightness_ratio=0.80, third_light=0.30, ld_law="quadratic", ld_primary=(0.50, 0.22),
                     ld_secondary=(0.52, 0.20)),
+    # strongly eccentric orbit (e = 0.35): secondary near phase 0.65, eclipses of widths differing by ~1.7
+    "eccentric-wide": dict(period=2880 * CADENCE, t0=0.88, radius_sum=0.14, radius_ratio=0.80, inclination=88.5,
+                           surface_brightness_ratio=0.80, eccentricity=0.35, omega=50.0, ld_law="quadratic",
+                           ld_primary=(0.50, 0.22), ld_secondary=(0.52, 0.20)),
     # power-2 limb darkening (Hestroffer 1997), high precision
     "power-2": dict(period=2592 * CADENCE, t0=0.52, radius_sum=0.16, radius_ratio=0.75, inclination=87.9,
                     surface_brightness_ratio=0.70, ld_law="power-2", ld_primary=(0.72, 0.45),
@@ -44,7 +48,7 @@ SYSTEMS: dict[str, dict] = {
 }
 
 #: white noise per 2-minute point (relative flux)
-NOISE = {"grazing": 1e-3, "partial": 2e-4, "total": 4e-4, "eccentric": 4e-4, "power-2": 2e-4}
+NOISE = {"grazing": 1e-3, "partial": 2e-4, "total": 4e-4, "eccentric": 4e-4, "eccentric-wide": 4e-4, "power-2": 2e-4}
 
 
 def truth(name: str) -> dict[str, float]:

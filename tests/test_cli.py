@@ -354,7 +354,6 @@ from astropy.coordinates import EarthLocation, SkyCoord  # noqa: E402
 from astropy.time import Time  # noqa: E402
 
 from _textbook import textbook_velocity  # noqa: E402
-from eclipsekit.cli import build_parser  # noqa: E402
 
 BJD0 = 2459000.0   # the invented light curve's times are BJD_TDB - BJD0 in tests/_systems.py
 

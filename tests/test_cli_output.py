@@ -140,7 +140,8 @@ def test_demo_summary_names_options(demo):
     # the third-light note, written in Python terms, names the option on the command line
     printed = (demo.parent / "printed.txt").read_text()
     assert "(free it with --free third_light)" in printed and "free=" not in printed
-    assert "(free it with `free=['third_light']`)" in load_result(demo / "result.json").content["fit"]["notes"][-1]
+    notes = load_result(demo / "result.json").content["fit"]["notes"]
+    assert any("(free it with `free=['third_light']`)" in note for note in notes)
 
 
 # ---- 12. values without an uncertainty -------------------------------------------------------
@@ -248,3 +249,12 @@ def test_budget_lines_use_table_labels(demo):
     assert re.search(r"M1:\s+\d+% from K2, \d+% from K1", budget)
     assert re.search(r"R1:.*from r1", budget)
     assert not re.search(r"k_secondary|k_primary|frac_radius", budget)
+
+
+def test_rounding_that_carries_into_the_next_decade_keeps_two_figures():
+    # regression test: 0.0996 rounds to 0.10 (two significant figures, common practice), not 0.100
+    from eclipsekit.summary import format_value
+
+    assert format_value(0.26, 0.0996) == "0.26 ± 0.10"
+    assert format_value(1.0, 0.00996) == "1.000 ± 0.010"
+    _assert_rounded_to_uncertainty(format_value(0.26, 0.0996))

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import math
+import warnings
 
 import numpy as np
 import pytest
@@ -655,3 +656,111 @@ def test_proposal_beyond_the_range_is_dropped(monkeypatch):
     assert power == -math.inf and found == 45.0
     kept, sde = period_module._refine_segmented(s, [(45.0, "outside")], [])
     assert kept == [] and math.isnan(sde)
+
+
+# ------------------------------------------------------------------------------------
+# eclipses measured at a given ephemeris (issue 12: "a given ephemeris keeps the binary logic")
+# ------------------------------------------------------------------------------------
+from eclipsekit.errors import EclipsekitWarning  # noqa: E402
+from eclipsekit.period import measure_eclipses  # noqa: E402
+
+GIVEN = dict(period=3.7, t0=1.25, depth1=0.20, width1=0.12, depth2=0.10, width2=0.19, phase2=0.62, ingress=0.3,
+             sigma=0.003, n=6000, baseline=30.0)
+
+
+def _given_lc(seed=61):
+    """Independent trapezoid eclipses (written in this file) of unequal widths, the secondary at phase 0.62."""
+    g = GIVEN
+    rng = np.random.default_rng(seed)
+    t = _uniform_times(rng, g["n"], g["baseline"])
+    flux = (1 - _trapezoid_dip(t, g["period"], g["t0"], g["depth1"], g["width1"], g["ingress"])
+            - _trapezoid_dip(t, g["period"], g["t0"], g["depth2"], g["width2"], g["ingress"], phase=g["phase2"]))
+    return _lc(t, flux, g["sigma"], rng)
+
+
+def _carter_errors(depth, width):
+    """1σ errors of an eclipse's mid-time and first-to-last-contact duration for a trapezoid of depth
+    ``depth``, duration ``width`` and ingress ``GIVEN['ingress'] * width / 2`` sampled by GIVEN's points.
+
+    Carter et al. 2008, ApJ 689, 499, eqs. (18)-(20) (from memory): with Q = sqrt(N_in) depth / sigma,
+    T the duration between mid-ingress and mid-egress and tau the ingress, sigma_tc = T sqrt(tau / 2T) / Q,
+    sigma_T = T sqrt(2 tau / T) / Q, sigma_tau = T sqrt(6 tau / T) / Q; the contact duration is T + tau.
+    """
+    g = GIVEN
+    tau = g["ingress"] * width / 2
+    T = width - tau
+    q = math.sqrt(width / g["period"] * g["n"]) * depth / g["sigma"]
+    return T * math.sqrt(tau / (2 * T)) / q, (T * math.sqrt(2 * tau / T) + T * math.sqrt(6 * tau / T)) / q
+
+
+def test_given_ephemeris_measures_secondary_phase_and_widths():
+    # the secondary at any phase and both widths are measured; period and t0 stay exactly as given
+    g = GIVEN
+    lc = _given_lc()
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", EclipsekitWarning)  # data agree with the ephemeris: no warning
+        res = measure_eclipses(lc, g["period"], g["t0"])
+    assert res.period == g["period"] and res.t0 == g["t0"]
+    assert math.isnan(res.period_err) and math.isnan(res.t0_err)  # given, not measured
+    assert res.method == "given" and res.secondary_detected and not res.ambiguous
+    st1, sd1 = _carter_errors(g["depth1"], g["width1"])
+    st2, sd2 = _carter_errors(g["depth2"], g["width2"])
+    # the secondary's phase is a difference of two eclipse times: 3 sigma of both (99.7% for Gaussian errors)
+    assert abs(res.phase_secondary - g["phase2"]) < 3 * math.hypot(st1, st2) / g["period"]
+    assert abs(res.duration_primary - g["width1"]) < 3 * sd1
+    assert abs(res.duration_secondary - g["width2"]) < 3 * sd2
+    d = json.loads(json.dumps(res.to_dict()))
+    assert d["ephemeris_given"] is True and d["method"] == "given" and d["status"] == "ok"
+    assert d["period"] == {"value": g["period"], "uncertainty": None, "unit": "d"}
+    assert d["phase_secondary"]["value"] == pytest.approx(res.phase_secondary)
+    assert "given ephemeris" in res.summary() and "phase" in res.summary() and "SDE" not in res.summary()
+
+
+def test_given_period_alone_measures_t0():
+    # without t0 the epoch is measured at the given period: within 3 sigma of the truth (modulo P)
+    g = GIVEN
+    res = measure_eclipses(_given_lc(62), g["period"] * u.day)
+    n = round((res.t0 - g["t0"]) / g["period"])
+    assert res.t0_err > 0 and abs(res.t0 - g["t0"] - n * g["period"]) < 3 * res.t0_err
+    assert res.period == g["period"]
+    assert abs(res.phase_secondary - g["phase2"]) < 0.01  # box-scan step (width / 8), see _secondary_scan
+
+
+@pytest.mark.parametrize("case, words", [
+    ("secondary", ["deeper than the one at the given `t0`"]),
+    ("quadrature", ["no significant eclipse at the given `t0`"]),
+    ("half", ["odd and even eclipses", "twice that given"]),
+])
+def test_given_ephemeris_disagreeing_with_the_data_warns(case, words):
+    # t0 at the shallower eclipse, t0 between the eclipses, or half the true period given (alternate
+    # eclipses unequal: the doubling rule, common practice): each is said, never silently fitted
+    g = GIVEN
+    lc = _given_lc(63)
+    period, t0 = g["period"], g["t0"]
+    if case == "secondary":
+        t0 = g["t0"] + g["phase2"] * g["period"]
+    elif case == "quadrature":
+        t0 = g["t0"] + 0.3 * g["period"]
+    else:  # an unequal pair on a circular orbit, given half its period
+        rng = np.random.default_rng(64)
+        t = _uniform_times(rng, g["n"], g["baseline"])
+        lc = _lc(t, 1 - _trapezoid_dip(t, period, t0, 0.2, 0.12) - _trapezoid_dip(t, period, t0, 0.1, 0.12, phase=0.5),
+                 g["sigma"], rng)
+        period = g["period"] / 2
+    with pytest.warns(EclipsekitWarning) as record:
+        res = measure_eclipses(lc, period, t0)
+    text = " ".join(str(w.message) for w in record)
+    assert all(w in text for w in words), text
+    assert res.period == period and res.t0 == t0  # still kept as given
+    if case == "half":
+        assert res.ambiguous and res.alternative_period == 2 * period
+
+
+@pytest.mark.parametrize("kwargs, match", [
+    ({"period": -1.0, "t0": 0.0}, "`period`"),
+    ({"period": 2.0, "t0": math.nan}, "`t0`"),
+    ({"period": 3 * u.kg}, "`period`"),
+])
+def test_given_ephemeris_bad_arguments(kwargs, match):
+    with pytest.raises(InputError, match=match):
+        measure_eclipses(_given_lc(), **kwargs)

@@ -5,6 +5,7 @@ import math
 import subprocess
 import sys
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -12,7 +13,7 @@ from astropy.table import Table
 
 from eclipsekit.cli import main
 from eclipsekit.data import sample_paths
-from eclipsekit.results import SECTIONS
+from eclipsekit.results import MANIFEST, SECTIONS
 
 from _brute_force import brute_force_flux
 from _textbook import textbook_velocity
@@ -191,9 +192,11 @@ def test_interrupted_write_leaves_no_result_json(analysis, tmp_path, monkeypatch
     out = tmp_path / "out"
     with pytest.raises(KeyboardInterrupt):
         analysis.write(out)
-    assert not (out / "result.json").exists()
-    assert not list(out.glob("*.part")) and not list(out.glob(".*.part"))
-    # what was written before the interruption is complete and readable
+    # the files are staged in a hidden folder and the folder appears only when all are written:
+    # after the interruption there is neither a folder with some of the files nor the staging folder
+    assert list(tmp_path.iterdir()) == []
+    written = analysis.write(out)   # a complete write afterwards
+    assert {p.name for p in out.iterdir()} == {p.name for p in written.values()} | {MANIFEST}
     Table.read(out / "parameters.ecsv", format="ascii.ecsv")
 
 
@@ -497,3 +500,99 @@ def test_analysis_status_follows_the_fit(total_lc, monkeypatch, status, reasons,
     a = analyse(total_lc, period=s["period"], t0=s["t0"], progress=False)
     assert a.status == status
     assert a.message.startswith(message)
+
+
+# -- a given ephemeris keeps the binary logic (issue 12) ------------------------------------------------
+from _systems import truth  # noqa: E402
+
+ECC = "eccentric-wide"  # e = 0.35, omega = 50 deg: secondary near phase 0.65, widths differing by ~1.7
+
+
+@pytest.fixture(scope="module")
+def eccentric_csv(tmp_path_factory):
+    # three orbits of the e = 0.35 system from the independent brute-force integrator (tests/_systems.py)
+    t, f, e = light_curve_arrays(ECC, 17, n_orbits=3)
+    path = tmp_path_factory.mktemp("eccentric") / "eccentric.csv"
+    Table({"time": t, "flux": f, "flux_err": e}).write(path, format="ascii.csv")
+    return path
+
+
+def _secondary_phase_bounds(search) -> tuple[float, float]:
+    """Exact edge-on phase of the secondary eclipse of ECC and the tolerance of its measurement.
+
+    phi = 0.5 + [atan(e cos w / sqrt(1 - e^2)) + e cos w sqrt(1 - e^2) / (1 - e^2 sin^2 w)] / pi (Sterne 1939,
+    PNAS 25, 297; from memory; 0.5 + (2/pi) e cos w at first order).  Tolerance: 5 sigma of the timing of
+    the secondary, sigma_t = (sigma / depth) / sqrt(N_in) * T / sqrt(2) (Carter et al. 2008, ApJ 689, 499,
+    with the ingress bounded by T; from memory), plus the i < 90 deg shift of the minimum, of order
+    e cot^2 i (common practice) - as in tests/test_period.py.
+    """
+    s = SYSTEMS[ECC]
+    e, w, inc = s["eccentricity"], math.radians(s["omega"]), math.radians(s["inclination"])
+    ecosw = e * math.cos(w)
+    exact = 0.5 + (math.atan(ecosw / math.sqrt(1 - e * e))
+                   + ecosw * math.sqrt(1 - e * e) / (1 - (e * math.sin(w)) ** 2)) / math.pi
+    n_in = search.duration_secondary / s["period"] * 3 * round(s["period"] / (2.0 / 1440))
+    sigma_t = 4e-4 / search.depth_secondary / math.sqrt(n_in) * search.duration_secondary / math.sqrt(2)
+    return exact, 5 * sigma_t / s["period"] + e / math.tan(inc) ** 2
+
+
+def test_given_ephemeris_fits_eccentric_orbit(eccentric_csv):
+    # issue 12: with --period/--t0 the secondary was put at phase 0.5 and the orbit fitted circular (on
+    # this system: poor_fit, e cos w and e sin w held at 0).  Now both eclipses are measured at the given
+    # ephemeris and the fit starts eccentric.  Covariance errors keep the test short (errors="auto" runs
+    # an MCMC here, ~90 s)
+    from eclipsekit.pipeline import analyse
+
+    s, tr = SYSTEMS[ECC], truth(ECC)
+    a = analyse(str(eccentric_csv), period=s["period"], t0=s["t0"], errors="covariance", progress=False, seed=2)
+    search, fit = a.search, a.eclipse_fit
+    assert search.method == "given" and search.period == s["period"] and search.t0 == s["t0"]
+    exact, tol = _secondary_phase_bounds(search)
+    assert abs(search.phase_secondary - exact) < tol, (search.phase_secondary, exact, tol)
+    # the eclipse nearer apastron lasts longer; e sin w > 0 puts the secondary there (first order,
+    # W2/W1 ~ (1 + e sin w)/(1 - e sin w) = 1.7 here; Kopal 1959, "Close Binary Systems", ch. VI; from memory).
+    # A property, not a value: the trapezoid's contacts of limb-darkened eclipses are biased by a few percent
+    assert search.duration_secondary > search.duration_primary
+    assert {"ecosw", "esinw"} <= set(fit.free)
+    for key in ("ecosw", "esinw"):  # truth from the brute-force orbit's definition; 3 sigma (99.7%)
+        assert abs(fit.values[key] - tr[key]) < 3 * fit.uncertainties[key], (key, fit.values[key], tr[key])
+    assert a.status != "poor_fit", a.message
+    assert a.to_dict()["period_search"]["ephemeris_given"] is True
+
+
+def test_cli_run_with_given_ephemeris_reports_secondary_phase(eccentric_csv, tmp_path):
+    s = SYSTEMS[ECC]
+    out = tmp_path / "out"
+    assert main(["run", str(eccentric_csv), "--period", repr(s["period"]), "--t0", repr(s["t0"]),
+                 "--errors", "covariance", "--out", str(out), "--quiet"]) == 0
+    result = json.loads((out / "result.json").read_text())
+    section = result["period_search"]
+    assert section["ephemeris_given"] is True and section["method"] == "given"
+    assert section["secondary_detected"] is True
+    exact, tol = _secondary_phase_bounds(SimpleNamespace(duration_secondary=section["duration_secondary"]["value"],
+                                                         depth_secondary=section["depth_secondary"]["value"]))
+    assert abs(section["phase_secondary"]["value"] - exact) < tol
+    assert section["duration_secondary"]["value"] > section["duration_primary"]["value"]
+    assert "ephemeris given" in section["reasoning"]
+    assert not (out / "periodograms.png").exists()  # no search, no periodogram
+
+
+def test_t0_without_period_is_refused(eccentric_csv, tmp_path, capsys):
+    # a t0 alone used to be ignored silently (the period search chose its own epoch)
+    assert main(["run", str(eccentric_csv), "--t0", "0.88", "--out", str(tmp_path / "out"), "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert "--t0" in err and "--period" in err and "Traceback" not in err
+
+
+def test_python_fit_with_given_ephemeris_starts_eccentric(eccentric_csv):
+    # the same through fit_eclipses(lc, period=, t0=) with no start: the eclipses are measured at the given
+    # ephemeris (it started circular before); truth from the brute-force orbit's definition, 3 sigma
+    import eclipsekit as ek
+
+    s, tr = SYSTEMS[ECC], truth(ECC)
+    fit = ek.fit_eclipses(ek.read_light_curve(str(eccentric_csv)), period=s["period"], t0=s["t0"],
+                          errors="covariance", progress=False, seed=2)
+    assert {"ecosw", "esinw"} <= set(fit.free)
+    for key in ("ecosw", "esinw"):
+        assert abs(fit.values[key] - tr[key]) < 3 * fit.uncertainties[key], (key, fit.values[key], tr[key])
+    assert fit.status != "poor_fit", fit.status_reasons

@@ -1,5 +1,6 @@
 """Result files: atomic writing, the output folder rules, the parameters table and formatting."""
 
+import hashlib
 import json
 import os
 
@@ -49,11 +50,14 @@ def test_write_atomic_keeps_old_file_on_failure(tmp_path):
 
 
 def test_output_dir_rules(tmp_path):
-    assert prepare_output_dir(tmp_path / "new").is_dir()
+    # checked, not made: the folder appears complete at the end of a run (output_folder)
+    assert prepare_output_dir(tmp_path / "a" / "new") == tmp_path / "a" / "new"
+    assert (tmp_path / "a").is_dir() and not (tmp_path / "a" / "new").exists()
+    assert list((tmp_path / "a").iterdir()) == []   # the writability probe is gone
     full = tmp_path / "full"
     full.mkdir()
     (full / "x.txt").write_text("keep me")
-    with pytest.raises(InputError, match="not empty; use `overwrite=True`"):
+    with pytest.raises(InputError, match="not empty; use `overwrite` or another `out`"):
         prepare_output_dir(full)
     assert prepare_output_dir(full, overwrite=True) == full
     assert (full / "x.txt").read_text() == "keep me"
@@ -209,3 +213,60 @@ def test_parameters_table_fixed_column(tmp_path):
     back = Table.read(path, format="ascii.ecsv")
     assert dict(zip(back["name"], back["fixed"].tolist())) == {"inclination": True, "radius_ratio": False,
                                                                "radius_sum": False}
+
+
+# -- the output folder: staged, filled at the end, stale files of earlier runs removed ------------------
+from eclipsekit.errors import EclipsekitWarning  # noqa: E402
+from eclipsekit.results import MANIFEST, output_folder  # noqa: E402
+
+
+def _run_writing(out, names, overwrite=False):
+    with output_folder(out, overwrite=overwrite) as stage:
+        for name in names:
+            (stage / name).write_text(f"{name} of this run")
+
+
+def test_new_folder_appears_only_when_complete(tmp_path):
+    out = tmp_path / "res"
+    with pytest.raises(RuntimeError):
+        with output_folder(out) as stage:
+            (stage / "parameters.ecsv").write_text("x")
+            assert not out.exists()            # nothing visible while writing
+            raise RuntimeError("plotting failed")
+    assert list(tmp_path.iterdir()) == []      # neither the folder nor the staging folder
+    _run_writing(out, ["result.json", "summary.txt"])
+    assert sorted(p.name for p in out.iterdir()) == sorted(["result.json", "summary.txt", MANIFEST])
+    assert sorted(json.loads((out / MANIFEST).read_text())["files"]) == ["result.json", "summary.txt"]
+
+
+def test_stale_files_removed_unless_changed_or_not_ours(tmp_path):
+    out = tmp_path / "res"
+    _run_writing(out, ["result.json", "velocities.png", "velocities.ecsv"])
+    (out / "notes.txt").write_text("mine")                    # the user's own file
+    (out / "velocities.ecsv").write_text("edited by hand")    # ours, changed since
+    with pytest.warns(EclipsekitWarning, match="kept velocities.ecsv"):
+        _run_writing(out, ["result.json"], overwrite=True)
+    assert sorted(p.name for p in out.iterdir()) == sorted(["result.json", "notes.txt", "velocities.ecsv", MANIFEST])
+    assert (out / "velocities.ecsv").read_text() == "edited by hand"
+    assert (out / "result.json").read_text() == "result.json of this run"
+
+
+def test_manifest_cannot_point_outside_the_folder(tmp_path):
+    out = tmp_path / "res"
+    _run_writing(out, ["result.json"])
+    outside = tmp_path / "precious.txt"
+    outside.write_text("keep")
+    manifest = json.loads((out / MANIFEST).read_text())
+    # an edited manifest naming a file outside, with that file's true digest (hashlib's SHA-256)
+    manifest["files"]["../precious.txt"] = hashlib.sha256(b"keep").hexdigest()
+    (out / MANIFEST).write_text(json.dumps(manifest))
+    _run_writing(out, ["summary.txt"], overwrite=True)
+    assert outside.read_text() == "keep"
+    assert not (out / "result.json").exists()   # the genuine stale entry is removed
+
+
+def test_write_atomic_error_names_the_file_not_its_temporary(tmp_path):
+    target = tmp_path / "missing" / "p.json"
+    with pytest.raises(FileNotFoundError) as info:
+        write_json(target, {"status": "ok"})
+    assert info.value.filename == str(target)

@@ -81,3 +81,12 @@ def test_fixed_limb_darkening_by_name_is_held_and_others_stay_fitted():
     assert fit.values["ld1_1"] == 0.28 and fit.values["ld1_2"] == 0.30
     assert "ld1_1" in fit.fixed and "ld2_sum" in fit.free and "ld2_1" not in fit.fixed
     assert fit.uncertainties["ld2_1"] is not None
+
+
+def test_mcmc_that_did_not_mix_is_not_ok():
+    # a 40-step chain is far shorter than the ~20 autocorrelation times a trustworthy interval needs (the
+    # emcee documentation's rule of thumb is tens of tau, from memory): its warning makes the status "caution"
+    fit, caught = _fit("partial", errors="mcmc", mcmc_steps=40, check_third_light=False)
+    assert any(w.startswith("MCMC chain after burn-in") for w in caught)
+    assert fit.status == "caution"
+    assert any(r.startswith("MCMC ") for r in fit.status_reasons)

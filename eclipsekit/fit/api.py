@@ -41,6 +41,8 @@ def fit_eclipses(
     ld_primary: Iterable[float] | None = None,
     ld_secondary: Iterable[float] | None = None,
     baseline_degree: int = 1,
+    baseline: str = "auto",
+    harmonics: int | None = None,
     gap: float | None = None,
     clip_sigma: float | None = 5.0,
     window: bool | None = None,
@@ -93,7 +95,7 @@ def fit_eclipses(
         cyclic shifts of the residuals, each refitted; Bouma et al. 2009, AJ 137, 4691,
         sect. 4.2; Southworth 2008, MNRAS 386, 1644), which includes correlated noise.
         "auto" (default) uses the covariance when it can be trusted and otherwise an
-        MCMC within ``mcmc_seconds`` (default 60 s per 20,000 points); the reasons are
+        MCMC (its full ``mcmc_steps``, so that a seed repeats it exactly); the reasons are
         in ``diagnostics["errors_reasons"]`` (see
         :func:`eclipsekit.fit.uncertainties.trust.covariance_doubts`).
     fixed : dict, optional
@@ -113,6 +115,16 @@ def fit_eclipses(
     baseline_degree : int
         Degree of the polynomial multiplying the model in each segment (0 = only a
         normalisation per segment).
+    baseline : {"auto", "polynomial", "fourier", "gp"}
+        What multiplies the eclipse model besides that polynomial: nothing; a Fourier
+        series in orbital phase (reflection/ellipsoidal-like variation, stable spots;
+        solved linearly like the polynomial); or in addition a Gaussian process
+        (celerite2 SHO kernel and a jitter, fitted by maximum marginal likelihood) for
+        evolving spots, granulation and oscillations.  "auto" (default) decides from
+        the out-of-eclipse residuals of a polynomial fit (see
+        :func:`eclipsekit.fit.baseline.choose_baseline`); the decision is in ``notes``.
+    harmonics : int, optional
+        Orbital harmonics of the Fourier series (0..4); default chosen by the BIC.
     gap : float, optional
         Gap (days) that splits segments; default max(0.5 d, 10 x cadence).
     clip_sigma : float or None
@@ -142,7 +154,8 @@ def fit_eclipses(
         when the data clearly need third light, and otherwise say how much third light
         the data allow and how much it would move the radii (``notes``).
     mcmc_seconds : float, optional
-        Time budget of the MCMC (it stops early, with a warning, when it runs out).
+        Time budget of the MCMC (default none: it stops early, with a warning, when it runs
+        out; the steps run then depend on the machine's speed, so results no longer repeat).
     progress : bool
         Show progress bars (MCMC, permutation).
     seed : int, optional
@@ -185,7 +198,8 @@ def fit_eclipses(
         fit = joint_fit(lc, velocities, start, period=period, t0=t0, fix=fix, free=free, errors=errors,
                         exposure_time=exposure_time, supersample=supersample, ld_law=ld_law,
                         ld_primary=ld_primary, ld_secondary=ld_secondary, baseline_degree=baseline_degree,
-                        gap=gap, clip_sigma=clip_sigma, window=window, n_samples=n_samples, progress=progress,
+                        baseline=baseline, harmonics=harmonics, gap=gap, clip_sigma=clip_sigma, window=window,
+                        n_samples=n_samples, progress=progress,
                         seed=seed, separate_gamma=separate_gamma, fixed=fixed, priors=priors, **values)
     else:
         if separate_gamma:
@@ -193,8 +207,8 @@ def fit_eclipses(
         settings = make_settings(
             lc, period=period, t0=t0, fix=fix, free=free, errors=errors, exposure_time=exposure_time,
             supersample=supersample, ld_law=ld_law, ld_primary=ld_primary, ld_secondary=ld_secondary,
-            baseline_degree=baseline_degree, gap=gap, clip_sigma=clip_sigma, window=window,
-            mcmc_walkers=mcmc_walkers, mcmc_steps=mcmc_steps, mcmc_burn=mcmc_burn, mcmc_thin=mcmc_thin,
+            baseline_degree=baseline_degree, baseline=baseline, harmonics=harmonics, gap=gap,
+            clip_sigma=clip_sigma, window=window, mcmc_walkers=mcmc_walkers, mcmc_steps=mcmc_steps, mcmc_burn=mcmc_burn, mcmc_thin=mcmc_thin,
             n_samples=n_samples, n_shifts=n_shifts, progress=progress, seed=seed,
             check_limb_darkening=check_limb_darkening, check_third_light=check_third_light, fixed=fixed,
             priors=priors, mcmc_seconds=mcmc_seconds, **values)

@@ -22,6 +22,7 @@ from ..errors import FitError
 from .derived import eclipse_props
 from .initial import InitialParameters
 from .parameters import ParameterMap, bounds
+from .baseline import VariabilityProblem, fit_hyperparameters
 from .problem import Problem, build_problem, window_mask
 from .settings import FitSettings
 from .start import ranked_starts
@@ -143,18 +144,54 @@ class _Driver:
         self.diag: dict[str, Any] = {"attempts": [], "n_points": len(lc)}
         self.warnings: list[str] = []
         self.problems: list[Problem] = []
+        # "auto" fits the polynomial baseline first; fit_light_curve then decides
+        self.variability = settings.baseline in ("fourier", "gp")
+        self.hyper = None
+        if settings.baseline == "gp":
+            self.hyper = dict(settings.gp_start or {"jitter": 0.0, "sigma": float(np.median(lc.flux_err)),
+                                                    "rho": float(np.ptp(lc.time)) / 10, "Q": 1.0})
 
     def problem(self, mask: np.ndarray | None) -> Problem:
         """A residual problem of the current light curve (every point when ``mask`` is None)."""
         st = self.settings
+        extra: dict[str, Any] = {}
+        if self.variability:
+            extra = dict(cls=VariabilityProblem, harmonics=st.harmonics or 0, period_ref=self.mapping.p_ref,
+                         t_ref=self.mapping.t_ref, hyper=self.hyper)
         pr = build_problem(self.lc, mask, mapping=self.mapping, gap=st.gap, degree=st.baseline_degree,
-                           ld_law=st.ld_law, exposure_time=st.exposure_time, supersample=st.supersample)
+                           ld_law=st.ld_law, exposure_time=st.exposure_time, supersample=st.supersample, **extra)
         self.problems.append(pr)
         return pr
 
+    def fit_hyper(self, pr: Problem, res: Any, v: dict[str, float], rho_min: float
+                  ) -> tuple[Problem, Any, dict[str, float]]:
+        """GP baseline: alternate the kernel and jitter (maximum marginal likelihood) with the eclipses.
+
+        Coordinate ascent of one likelihood: at most 4 rounds, until the log-likelihood
+        gained by the hyperparameters is below 0.1.
+        """
+        span = float(np.ptp(self.lc.time))
+        for _ in range(4):
+            m = pr.model(v)
+            hyper, _ = fit_hyperparameters(pr.time, pr.flux / m, (pr.sig / m) ** 2, rho_min=rho_min,
+                                           rho_max=max(span, 2 * rho_min), X=pr.X, start=self.hyper,
+                                           jitter_scale=1.0 / m)
+            before = pr.log_posterior(res.params)
+            pr.set_hyper(hyper)
+            gain = pr.log_posterior(res.params) - before
+            self.hyper = hyper
+            res, v = run_least_squares(pr, v)
+            if not gain > 0.1:
+                break
+        self.diag["gp_hyperparameters"] = dict(self.hyper)
+        return pr, res, v
+
     def windows_for(self, v: Mapping[str, float], w1: float, w2: float) -> np.ndarray | None:
-        """Points near the eclipses, or None to fit every point (``window`` False, or windows over 60%)."""
-        if self.settings.window is False:
+        """Points near the eclipses, or None to fit every point (``window`` False, or windows over 60%).
+
+        A Fourier or GP baseline varies away from the eclipses: every point is fitted.
+        """
+        if self.settings.window is False or self.variability:
             return None
         mask = window_mask(self.lc.time, v, w1, w2, flank=0.5)
         if self.settings.window is None and mask.mean() > 0.6:
@@ -377,6 +414,8 @@ def solve(lc: LightCurve, initial: InitialParameters, settings: FitSettings) -> 
     starts = ranked_starts(initial.start, val, set(initial.vary), pr.chi2)
     drv.noise_reference(val, win)
     res, vbest, why = drv.restarts(pr, starts)
+    if drv.hyper is not None:
+        pr, res, vbest = drv.fit_hyper(pr, res, vbest, rho_min=2 * max(win))
     pr, res, vbest, why, sel, durations = drv.refine(pr, res, vbest, why, sel, win)
 
     # statistics over the whole light curve

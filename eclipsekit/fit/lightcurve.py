@@ -18,6 +18,7 @@ from ..summary import format_value
 from .checks import limb_darkening_shift, limb_darkening_warning, validity_warnings
 from .derived import add_derived_samples, add_derived_values, summarise_samples
 from .driver import LeastSquaresSolution, run_least_squares, solve
+from .problem import window_mask
 from .initial import InitialParameters, initial_parameters
 from .parameters import DERIVED, ld_coefficients, parameter_names, unit
 from .result import EclipseFit
@@ -60,6 +61,7 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     rng = np.random.default_rng(settings.seed)
     initial = initial_parameters(lc, start_values(lc, start, settings), settings)
     sol = solve(lc, initial, settings)
+    sol, settings = resolve_baseline(lc, initial, sol, settings)
     settings = choose_errors(sol, settings)
     estimate, runner, method = estimate_uncertainties(sol, settings, rng)
     sol.diagnostics.update(estimate.diagnostics)
@@ -67,7 +69,8 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     warn, status, reasons = run_checks(sol, settings, values, unc, sol.warnings + estimate.warnings)
     fit = _result(sol, initial, settings, values, unc, samples, estimate, warn, _time.perf_counter() - t_start)
     fit = dataclasses.replace(fit, status=status, status_reasons=reasons,
-                              notes=decision_notes(sol, fit), intervals=central_intervals(fit))
+                              notes=baseline_notes(sol, settings) + decision_notes(sol, fit),
+                              intervals=central_intervals(fit))
     lc_sol = LightCurveSolution(fit=fit, least_squares=sol, initial=initial, settings=settings)
     if settings.check_third_light and "third_light" not in set(sol.problem.mapping.free) | settings.fix \
             | set(settings.values) and sol.success:
@@ -76,20 +79,123 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
 
 
 def start_values(lc: LightCurve, start: Any, settings: FitSettings) -> dict[str, Any]:
-    """:func:`estimate_start` of ``start``; without a start or ephemeris, of a period search of ``lc``."""
-    if start is None and (settings.period is None or settings.t0 is None):
-        from ..period import find_period  # loaded only when needed (astropy.timeseries)
+    """:func:`estimate_start` of ``start``; without one, of a period search of ``lc``, or with a given
+    ephemeris, of the eclipses measured at it (the secondary at any phase and both widths, so that an
+    eccentric orbit is recognised: :func:`~eclipsekit.period.measure_eclipses`)."""
+    if start is None:
+        from ..period import find_period, measure_eclipses  # loaded only when needed (astropy.timeseries)
 
-        start = find_period(lc, progress=settings.progress)
+        if settings.period is None or settings.t0 is None:
+            start = find_period(lc, progress=settings.progress)
+        else:
+            start = measure_eclipses(lc, settings.period, settings.t0)
     return estimate_start(start if start is not None else {}, period=settings.period, t0=settings.t0)
 
 
-#: time budget of the MCMC that ``errors="auto"`` falls back to, per 20,000 points (seconds)
-AUTO_MCMC_SECONDS = 60.0
+#: fewest out-of-eclipse points for the automatic choice of the baseline
+MIN_OUT_OF_ECLIPSE = 50
+
+
+def resolve_baseline(lc: LightCurve, initial: InitialParameters, sol: LeastSquaresSolution,
+                     settings: FitSettings) -> tuple[LeastSquaresSolution, FitSettings]:
+    """Resolve ``baseline="auto"`` (or the harmonics of "fourier"/"gp") from the polynomial fit ``sol``.
+
+    The out-of-eclipse residuals decide (:func:`~eclipsekit.fit.baseline.choose_baseline`);
+    for anything but the polynomial the fit is redone from the same start with that
+    baseline.  The decision goes to ``diagnostics["baseline"]`` (and the notes).
+    """
+    if settings.baseline == "polynomial" or (settings.baseline != "auto" and settings.harmonics is not None):
+        sol.diagnostics.setdefault("baseline", {"kind": settings.baseline, "harmonics": settings.harmonics or 0})
+        return sol, settings
+    from .baseline import choose_baseline
+
+    d1, d2 = sol.durations
+    oot = ~window_mask(sol.lc.time, sol.best, d1, d2, flank=0.25)
+    if oot.sum() < MIN_OUT_OF_ECLIPSE:
+        kind = "polynomial" if settings.baseline == "auto" else settings.baseline
+        choice = {"kind": kind, "harmonics": 1 if kind == "fourier" else 0, "hyper": None,
+                  "note": f"baseline: {kind}, as only {int(oot.sum())} points lie out of eclipse (too few to test "
+                          "for variability)"}
+    else:
+        t = sol.lc.time[oot]
+        choice = choose_baseline(t, sol.residuals[oot] / sol.baseline[oot], sol.lc.flux_err[oot] / sol.baseline[oot],
+                                 sol.best["period"], sol.problem.mapping.t_ref, max(d1, d2), settings.baseline)
+    if choice["kind"] == "gp" and choice["hyper"] is None:
+        choice["hyper"] = {"jitter": 0.0, "sigma": float(np.median(sol.lc.flux_err)), "rho": 2 * max(d1, d2),
+                           "Q": 1.0}
+    settings = dataclasses.replace(settings, baseline=choice["kind"], harmonics=choice["harmonics"],
+                                   gp_start=choice["hyper"])
+    scale = error_scale(choice)
+    if scale != 1.0:
+        # the priors (limb darkening, the user's) weigh against the data through the errors: scale them before
+        # fitting, not only the covariance after
+        lc = dataclasses.replace(lc, flux_err=lc.flux_err * scale)
+    if choice["kind"] != "polynomial" or scale != 1.0:
+        sol = solve(lc, initial, settings)
+        sol.diagnostics["input_error_scale"] = scale
+        if "gp_hyperparameters" in sol.diagnostics:  # refits (checks) start from the fitted kernel
+            settings = dataclasses.replace(settings, gp_start=dict(sol.diagnostics["gp_hyperparameters"]))
+    sol.diagnostics["baseline"] = {k: v for k, v in choice.items() if k != "hyper"}
+    return sol, settings
+
+
+def error_scale(choice: dict[str, Any]) -> float:
+    """Factor for the quoted errors: sqrt of the out-of-eclipse reduced chi-square when it is not 1.
+
+    Not 1 when it differs from 1 by more than 3 times its sampling scatter, sqrt(2/n) for
+    n points (chi-square distribution).  Under a GP baseline the fitted jitter takes
+    excess scatter instead, and errors are left as quoted.
+    """
+    rc, n = choice.get("redchi_out"), choice.get("n_out", 0)
+    if choice["kind"] == "gp" or rc is None or not n or abs(rc - 1.0) <= 3 * np.sqrt(2.0 / n):
+        return 1.0
+    return float(np.sqrt(rc))
+
+
+def baseline_notes(sol: LeastSquaresSolution, settings: FitSettings) -> list[str]:
+    """The baseline decision and the noise model (scaled errors or a fitted jitter), one note each."""
+    notes = []
+    choice = sol.diagnostics.get("baseline") or {}
+    if choice.get("note"):
+        notes.append(choice["note"])
+    ref = float(sol.diagnostics.get("redchi_reference", float("nan")))
+    hyper = sol.diagnostics.get("gp_hyperparameters")
+    if settings.baseline == "gp" and hyper:
+        notes.append(f"noise model: a jitter of {hyper['jitter'] * 1e6:.0f} ppm fitted with the GP, added in "
+                     f"quadrature to the quoted errors (GP amplitude {hyper['sigma'] * 1e6:.0f} ppm, timescale "
+                     f"{hyper['rho']:.3f} d, quality factor {hyper['Q']:.2f}); errors not otherwise scaled")
+        sol.diagnostics["noise_model"] = {"kind": "jitter", "jitter": hyper["jitter"]}
+        return notes
+    given = float(sol.diagnostics.get("input_error_scale", 1.0))
+    if given != 1.0:
+        notes.append(f"noise model: the quoted errors are scaled by {given:.3f} before the fit (the out-of-eclipse "
+                     f"residuals scatter {given:.3f}x more than they say); then scaled by sqrt(reduced chi-square) "
+                     f"= {np.sqrt(sol.redchi_fit):.3f} for the uncertainties")
+        sol.diagnostics["noise_model"] = {"kind": "scaled", "error_scale": given * float(np.sqrt(sol.redchi_fit))}
+        return notes
+    scale = float(np.sqrt(sol.redchi_fit))
+    dof = max(1, sol.problem.time.size - len(sol.problem.mapping.free) - sol.problem.n_linear)
+    # the reduced chi-square of pure noise scatters by sqrt(2/dof) (chi-square distribution); 3 of those
+    agree = abs(sol.redchi_fit - 1) < 3 * np.sqrt(2.0 / dof)
+    scatter = f"out-of-eclipse point-to-point scatter {np.sqrt(ref):.2f}x the quoted errors" if np.isfinite(ref) \
+        else "no out-of-eclipse scatter measured"
+    if agree:
+        notes.append(f"noise model: the quoted errors agree with the residuals (sqrt of the reduced chi-square "
+                     f"{scale:.2f}; {scatter}); uncertainties use them as they are (scaled by {scale:.2f})")
+    else:
+        notes.append(f"noise model: the quoted errors are scaled by sqrt(reduced chi-square) = {scale:.2f} ({scatter})"
+                     ", for the uncertainties and the MCMC")
+    sol.diagnostics["noise_model"] = {"kind": "scaled", "error_scale": scale}
+    return notes
 
 
 def choose_errors(sol: LeastSquaresSolution, settings: FitSettings) -> FitSettings:
-    """Resolve ``errors="auto"``: the covariance when it can be trusted, else an MCMC within a time budget.
+    """Resolve ``errors="auto"``: the covariance when it can be trusted, else an MCMC.
+
+    The MCMC runs its full number of steps unless the user gave ``mcmc_seconds``: a wall-clock
+    budget would make the steps run, and so the numbers, depend on the machine's load, and the
+    same input and seed must give the same result (32 x 2,000 steps on 20,000 points take ~35 s
+    on two cores: scripts/bench_fit.py).
 
     The reasons (see :func:`~eclipsekit.fit.uncertainties.trust.covariance_doubts`) go to
     ``diagnostics["errors_reasons"]``.
@@ -103,10 +209,7 @@ def choose_errors(sol: LeastSquaresSolution, settings: FitSettings) -> FitSettin
     sol.diagnostics["errors_reasons"] = doubts
     if not doubts or sol.covariance is None:
         return dataclasses.replace(settings, errors="covariance")
-    budget = settings.mcmc_seconds
-    if budget is None:
-        budget = AUTO_MCMC_SECONDS * max(1.0, len(sol.lc) / 20000)
-    return dataclasses.replace(settings, errors="mcmc", mcmc_seconds=budget, mcmc_profile=True)
+    return dataclasses.replace(settings, errors="mcmc", mcmc_profile=True)
 
 
 def estimate_uncertainties(sol: LeastSquaresSolution, settings: FitSettings, rng: np.random.Generator
@@ -183,7 +286,8 @@ def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[st
 
     The status is "poor_fit" when the model does not describe the data (no clean
     convergence, eclipse residuals above the out-of-eclipse scatter, outliers concentrated
-    in the eclipses), "caution" when a warning says the answer may be biased, else "ok".
+    in the eclipses), "caution" when a warning says the answer may be biased or its MCMC did
+    not mix, else "ok".
     """
     warn, poor, biased = list(warn), [], []
     for kind, msg in validity_warnings(values, unc, sol.lc.time, sol.lc.flux_err, sol.residuals, sol.baseline,
@@ -201,6 +305,10 @@ def run_checks(sol: LeastSquaresSolution, settings: FitSettings, values: dict[st
         poor.append(warn[-1])
     poor += [w for w in sol.warnings if w.startswith("outlier rejection stopped")]
     biased += [w for w in sol.warnings if w.startswith("covariance matrix is singular")]
+    # an MCMC that did not mix (acceptance outside 0.1-0.8, a chain too short for its autocorrelation time,
+    # stopped at its time budget) gives intervals that cannot be trusted: the coverage runs of a grazing
+    # system showed medians 2-8 sigma off in such chains (scripts/calibrate_errors.py --system grazing)
+    biased += [w for w in warn if w.startswith("MCMC ")]
     if settings.check_limb_darkening and settings.ld_law != "uniform" and not sol.problem.mapping.varies("ld1_1") \
             and not sol.problem.mapping.varies("ld2_1"):
         sol.diagnostics["limb_darkening_check"] = shift = _limb_darkening_check(sol, settings, values, unc)
@@ -223,7 +331,9 @@ def _limb_darkening_check(sol: LeastSquaresSolution, settings: FitSettings, valu
             s = make_settings(lc, ld_law=settings.ld_law, clip_sigma=None, errors="covariance", n_samples=2,
                               progress=False, check_limb_darkening=False, exposure_time=settings.exposure_time,
                               supersample=settings.supersample, baseline_degree=settings.baseline_degree,
+                              baseline=settings.baseline, harmonics=settings.harmonics,
                               gap=settings.gap, window=settings.window, **kw)
+            s = dataclasses.replace(s, gp_start=settings.gp_start)
             return fit_light_curve(lc, SimpleNamespace(values=dict(values)), s).fit
 
     return limb_darkening_shift(values, unc, sol.problem.mapping.free, float(sol.redchi), len(lc),

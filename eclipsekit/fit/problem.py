@@ -21,7 +21,7 @@ Numerical notes
 from __future__ import annotations
 
 import math
-from typing import Mapping
+from typing import Any, Mapping
 
 import lmfit
 import numpy as np
@@ -342,8 +342,12 @@ class OutOfWindowBins:
 
 
 def build_problem(lc: LightCurve, mask: np.ndarray | None, *, mapping: ParameterMap, gap: float, degree: int,
-                  ld_law: str, exposure_time: float, supersample: int) -> Problem:
-    """The residual problem of ``lc``: every point (``mask`` None) or the points in ``mask`` plus bins of the rest."""
+                  ld_law: str, exposure_time: float, supersample: int, cls: type = Problem, **extra: Any) -> Problem:
+    """The residual problem of ``lc``: every point (``mask`` None) or the points in ``mask`` plus bins of the rest.
+
+    ``cls`` (a :class:`Problem` subclass, e.g. one with a variability baseline) is built
+    with the keywords ``extra``.
+    """
     seg_starts = segment_starts(lc.time, gap, min_points=max(5, 2 * (degree + 1)))
     seg_id_full = np.zeros(len(lc), int)
     seg_id_full[seg_starts[1:]] = 1
@@ -360,8 +364,8 @@ def build_problem(lc: LightCurve, mask: np.ndarray | None, *, mapping: Parameter
         f_ = bins.reduce(lc.flux)
     # renumber the segments present in the selection
     present, sid = np.unique(sid, return_inverse=True)
-    pr = Problem(t_, f_, e_, sid, mid[present], half[present], degree, mapping=mapping, ld_law=ld_law,
-                 exposure_time=exposure_time, supersample=supersample)
+    pr = cls(t_, f_, e_, sid, mid[present], half[present], degree, mapping=mapping, ld_law=ld_law,
+             exposure_time=exposure_time, supersample=supersample, **extra)
     pr.segments = [(float(lc.time[a]), float(lc.time[b])) for a, b in zip(seg_starts, ends)]
     pr.bins = bins
     return pr

@@ -35,6 +35,9 @@ class FitSettings:
     ld_primary: tuple[float, ...] | None = None
     ld_secondary: tuple[float, ...] | None = None
     baseline_degree: int = 1
+    baseline: str = "auto"
+    harmonics: int | None = None
+    gp_start: dict[str, float] | None = None
     gap: float = 0.5
     clip_sigma: float | None = 5.0
     window: bool | None = None
@@ -74,6 +77,8 @@ def make_settings(
     ld_primary: Iterable[float] | None = None,
     ld_secondary: Iterable[float] | None = None,
     baseline_degree: int = 1,
+    baseline: str = "auto",
+    harmonics: int | None = None,
     gap: float | None = None,
     clip_sigma: float | None = 5.0,
     window: bool | None = None,
@@ -104,6 +109,7 @@ def make_settings(
     if not isinstance(lc, LightCurve):
         raise InputError(f"`lc` must be an eclipsekit LightCurve, got {type(lc).__name__}")
     _check_choices(errors, ld_law, baseline_degree)
+    _check_baseline(baseline, harmonics)
     if len(lc) < 20:
         raise FitError(f"only {len(lc)} points in the light curve: too few to fit the eclipses")
     for name, x in (("mcmc_walkers", mcmc_walkers), ("mcmc_steps", mcmc_steps), ("n_samples", n_samples)):
@@ -136,7 +142,8 @@ def make_settings(
         raise InputError(f"parameters both fixed and free: {sorted(free_set & fix_set)}")
     return FitSettings(
         errors=errors, ld_law=ld_law, ld_primary=coeffs["primary"], ld_secondary=coeffs["secondary"],
-        baseline_degree=int(baseline_degree), gap=max(0.5, 10 * lc.cadence) if gap is None else float(gap),
+        baseline_degree=int(baseline_degree), baseline=baseline,
+        harmonics=None if harmonics is None else int(harmonics), gap=max(0.5, 10 * lc.cadence) if gap is None else float(gap),
         clip_sigma=clip_sigma, window=window, exposure_time=exp_d, supersample=supersample, period=P_in, t0=T_in,
         free=frozenset(free_set), fix=frozenset(fix_set), values=given_values, priors=prior_set,
         mcmc_walkers=int(mcmc_walkers), mcmc_seconds=None if mcmc_seconds is None else float(mcmc_seconds),
@@ -168,6 +175,18 @@ def _check_choices(errors: str, ld_law: str, baseline_degree: int) -> None:
         raise InputError(f"`ld_law` must be one of {list(LD_LAWS)}, got {ld_law!r}")
     if int(baseline_degree) != baseline_degree or not 0 <= baseline_degree <= 5:
         raise InputError(f"`baseline_degree` must be an integer 0..5, got {baseline_degree!r}")
+
+
+def _check_baseline(baseline: str, harmonics: int | None) -> None:
+    from .baseline import BASELINES, MAX_HARMONICS
+
+    if baseline not in BASELINES:
+        raise InputError(f"`baseline` must be one of {list(BASELINES)}, got {baseline!r}")
+    if harmonics is not None:
+        if int(harmonics) != harmonics or not 0 <= harmonics <= MAX_HARMONICS:
+            raise InputError(f"`harmonics` must be an integer 0..{MAX_HARMONICS}, got {harmonics!r}")
+        if baseline == "polynomial" and harmonics:
+            raise InputError("`harmonics` needs baseline='fourier' or 'gp' (the polynomial baseline has none)")
 
 
 def _exposure(lc: LightCurve, exposure_time: Any, supersample: int | None) -> tuple[float, int]:

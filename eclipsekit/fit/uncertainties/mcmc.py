@@ -62,19 +62,14 @@ def _run(pr: Any, pos: np.ndarray, st: Any) -> tuple[Any, int]:
         sampler.random_state = np.random.RandomState(int(st.seed)).get_state()
     t_end = None if st.mcmc_seconds is None else _time.perf_counter() + st.mcmc_seconds
     steps = 0
-    progress = st.progress and _on_terminal()
+    from ..._progress import show_progress
+
+    progress = show_progress(st.progress)
     for _ in sampler.sample(pos, iterations=int(st.mcmc_steps), progress=progress):
         steps += 1
         if t_end is not None and steps % 10 == 0 and _time.perf_counter() > t_end and steps >= 100:
             break
     return sampler, steps
-
-
-def _on_terminal() -> bool:
-    """Progress bars only on a terminal (not into logs)."""
-    import sys
-
-    return bool(getattr(sys.stderr, "isatty", lambda: False)())
 
 
 def _start_positions(ctx: UncertaintyContext) -> np.ndarray:

@@ -33,11 +33,9 @@ class PermutationMethod:
         shifts = np.unique(np.round(np.linspace(0, n_pts, nsh + 1)[1:-1]).astype(int))
         shifts = np.concatenate([[0], shifts])
         rows = []
-        it = shifts
-        if st.progress:
-            from tqdm.auto import tqdm
+        from ..._progress import progress_bar
 
-            it = tqdm(shifts, desc="residual permutation", unit="fit")
+        it = progress_bar(shifts, progress=st.progress, desc="residual permutation", unit="fit")
         t_pb = _time.perf_counter()
         for sft in it:
             fake = ctx.model_full + np.roll(ctx.residuals_full, int(sft))
