@@ -1226,31 +1226,69 @@ def _coherent_bls(s: _Setup, periods: np.ndarray) -> tuple[np.ndarray, np.ndarra
     return power, dur
 
 
+def _coherent_peak(s: _Setup, period: float, seg: float, max_steps: int = 8) -> tuple[float, float, bool]:
+    """Largest coherent box-least-squares power near a segmented-search peak at ``period``, its period,
+    and whether it lies on the edge of the searched range.
+
+    The coherent grid (the full baseline's step) is searched over ±1.5 steps of the segment grid
+    (segment length ``seg``); while the largest power lies on an edge of the searched window, the
+    window is moved on by its width in that direction (at most ``max_steps`` times, inside the
+    search range): a segment peak measured with wide phase bins (long trial durations, see
+    :func:`eclipsekit._segments.segmented_bls`) can lie a few of its own steps from the coherent one.
+    """
+    q = float(min_duty_cycle(period))
+    half = 1.5 * q / (SEGMENT_OVERSAMPLE * seg)
+    step = q / (s.oversample * s.baseline)
+    f_lo, f_hi = 1.0 / s.pmax, 1.0 / s.pmin
+    f = np.arange(max(1.0 / period - half, f_lo), min(1.0 / period + half, f_hi), step)
+    best, on_edge = (-math.inf, period), False
+    for _ in range(max_steps + 1):
+        if f.size == 0:
+            on_edge = False  # the search range ends here
+            break
+        pw, _ = _coherent_bls(s, 1.0 / f)
+        i = int(np.nanargmax(pw))
+        if pw[i] <= best[0]:
+            on_edge = False  # the power falls beyond the previous window's edge: that edge is the peak
+            break
+        best, on_edge = (float(pw[i]), float(1.0 / f[i])), not 0 < i < f.size - 1
+        if not on_edge:
+            break
+        # the maximum is on an edge: search the next window beyond it
+        f = f[-1] + step * np.arange(1, f.size + 1) if i else f[0] - step * np.arange(f.size, 0, -1)
+        f = f[(f >= f_lo) & (f <= f_hi)]
+    return best[0], best[1], on_edge
+
+
 def _refine_segmented(s: _Setup, proposed: list[tuple[float, str]], bands) -> tuple[list[tuple[float, str]], float]:
     """Bring the candidates of a segmented search to the coherent grid; returns the strongest
     :data:`SEGMENT_FOLDS` of them and the significance (SDE) of the best.
 
     Each candidate is searched on the coherent grid (the full baseline's step) over ±1.5 steps of
-    its segment grid.  The SDE compares the best coherent power with the median and spread of the
+    its segment grid; the strongest :data:`SEGMENT_FOLDS` whose maximum lies on that window's edge
+    are followed beyond it (:func:`_coherent_peak`; the others are not folded, so not followed, to
+    save time).  The SDE compares the best coherent power with the median and spread of the
     coherent power at :data:`SDE_SAMPLE` random trial periods (the statistic calibrated for the
     coherent search; the maximum is taken over the candidates only, so it can only be lower).
     """
     refined = []
     for p, label in proposed:
         seg = next((b[3] for b in bands if b[1] * 0.999 <= p <= b[2] * 1.001), s.baseline)
-        q = float(min_duty_cycle(p))
-        half = 1.5 * q / (SEGMENT_OVERSAMPLE * seg)
-        f = np.arange(1.0 / p - half, 1.0 / p + half, q / (s.oversample * s.baseline))
-        pw, _ = _coherent_bls(s, 1.0 / f[f > 0])
-        i = int(np.nanargmax(pw))
-        refined.append((float(pw[i]), 1.0 / f[f > 0][i], label))
+        refined.append((*_coherent_peak(s, p, seg, max_steps=0), seg, label))
     refined.sort(key=lambda r: -r[0])
+    for k, (_, p, on_edge, seg, label) in enumerate(refined[:SEGMENT_FOLDS]):
+        if on_edge:
+            refined[k] = (*_coherent_peak(s, p, seg), seg, label)
+    # a proposal just beyond the search range has no coherent trial period left: drop it
+    refined = sorted((r for r in refined if math.isfinite(r[0])), key=lambda r: -r[0])
+    if not refined:
+        return [], math.nan
     rng = np.random.default_rng(0)  # a fixed sample: repeated searches give the same answer
     sample = 1.0 / rng.uniform(1.0 / s.pmax, 1.0 / s.pmin, SDE_SAMPLE)
     ref, _ = _coherent_bls(s, sample)
     best = refined[0][0]
     sde = _sde(np.append(ref, best), best)
-    return [(p, label) for _, p, label in refined[:SEGMENT_FOLDS]], sde
+    return [(p, label) for _, p, _, _, label in refined[:SEGMENT_FOLDS]], sde
 
 
 def _propose_candidates(s: _Setup, freq, power, theta, bands):

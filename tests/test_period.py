@@ -538,6 +538,126 @@ def test_multi_year_eccentric_binary_period(monkeypatch):
     assert res.secondary_detected
 
 
+# ------------------------------------------------------------------------------------------
+# segmented coarse search of long data sets (eclipsekit._segments): duration groups, sums over
+# segments, and the coherent refinement of its peaks
+# ------------------------------------------------------------------------------------------
+from itertools import combinations  # noqa: E402
+
+from eclipsekit import _segments  # noqa: E402
+
+
+def _partition_cost(durations, n_points, period, oversample, starts):
+    # the kernel's work for groups starting at ``starts`` (per trial period): each group one pass over
+    # the points binned for its shortest duration, plus one pass over its phase bins per duration in it
+    bounds = list(starts) + [len(durations)]
+    return sum(n_points[a] + _segments.PHASE_BIN_COST * (b - a) * oversample * period / durations[a]
+               for a, b in zip(bounds[:-1], bounds[1:]))
+
+
+@pytest.mark.parametrize("p_lo,p_hi,n_raw", [(125.0, 250.0, 30_000), (0.25, 0.5, 2_000), (8.0, 16.0, 2_000)])
+def test_duration_groups_are_the_cheapest_partition(p_lo, p_hi, n_raw):
+    # brute force: every split of the durations into contiguous groups (2^(n-1) of them) costed and
+    # the cheapest kept; the dynamic programme must find the same cost.  Point counts are those of a
+    # regular 30-min cadence binned to half of each duration (as segmented_bls does).
+    durations = trial_durations(p_lo, p_hi)
+    cadence = 30.0 / 1440
+    n_points = [min(n_raw, int(n_raw * cadence / (d / 2)) + 1) for d in durations]
+    groups = _segments.duration_groups(durations, n_points, p_hi, 2.0)
+    assert groups[0].start == 0 and groups[-1].stop == durations.size
+    assert all(a.stop == b.start and a.stop > a.start for a, b in zip(groups[:-1], groups[1:]))
+    n = durations.size
+    best = min(_partition_cost(durations, n_points, p_hi, 2.0, (0,) + cut)
+               for k in range(n) for cut in combinations(range(1, n), k))
+    ours = _partition_cost(durations, n_points, p_hi, 2.0, [g.start for g in groups])
+    assert ours == pytest.approx(best, rel=1e-12)
+
+
+def _one_segment_power(t, y, dy, periods, p_lo, p_hi):
+    # the semi-coherent statistic of one segment written with astropy BoxLeastSquares directly: for each
+    # group of durations, data binned in time to half its shortest duration, phase bins of half that
+    # duration (oversample 2), power (S/N)^2 / 2; the segment's power is the largest over the groups
+    durations = trial_durations(p_lo, p_hi)
+    binned = [bin_in_time(t, y, dy, d / 2) for d in durations]
+    best = np.zeros(periods.size)
+    for g in _segments.duration_groups(durations, [b[0].size for b in binned], p_hi, 2.0):
+        tb, yb, eb = binned[g.start]
+        res = BoxLeastSquares(tb, yb, eb).power(periods, durations[g], objective="snr", method="fast",
+                                                oversample=2)
+        best = np.maximum(best, 0.5 * np.asarray(res.power) ** 2)
+    return best
+
+
+def test_segmented_power_is_the_sum_over_segments_of_astropy_bls():
+    # reference library: the summed power of segmented_bls equals the sum over its segments of
+    # astropy's box least squares on each segment (above), at every trial period of the top band,
+    # whatever the chunking and threading
+    rng = np.random.default_rng(51)
+    t = np.sort(rng.uniform(0.0, 300.0, 6000))
+    y = 1 - _trapezoid_dip(t, 23.7, 5.0, 0.01, 0.9) + rng.normal(0.0, 0.002, t.size)
+    dy = np.full(t.size, 0.002)
+    freq, power, bands = _segments.segmented_bls(t, y, dy, 10.0, 40.0, t[-1], 2.0,
+                                                 lambda *a: period_module._bls_chunk(*a, oversample=2),
+                                                 n_jobs=2)
+    sl, p_lo, p_hi, seg = bands[0]
+    n_seg = round(t[-1] / seg)
+    assert n_seg == 3  # 300 d cut into pieces of at least two periods of 40 d
+    periods = 1.0 / freq[sl]
+    index = np.minimum((t / seg).astype(int), n_seg - 1)
+    expected = sum(_one_segment_power(t[index == j], y[index == j], dy[index == j], periods, p_lo, p_hi)
+                   for j in range(n_seg))
+    assert_allclose(power[sl], expected, rtol=1e-12)
+
+
+def test_segment_without_any_box_adds_no_power():
+    # regression test: a segment whose points all fall in one time bin of a duration group has no box
+    # (astropy returns -inf, whose square made the summed power inf at every period of the band)
+    rng = np.random.default_rng(52)
+    t = np.concatenate([np.sort(rng.uniform(0.0, 200.0, 3000)), 250.0 + np.linspace(0.0, 0.01, 40)])
+    y = 1 + rng.normal(0.0, 0.002, t.size)
+    freq, power, _ = _segments.segmented_bls(t, y, np.full(t.size, 0.002), 10.0, 40.0, t[-1], 2.0,
+                                             lambda *a: period_module._bls_chunk(*a, oversample=2))
+    assert np.all(np.isfinite(power))
+
+
+def test_segment_peak_followed_to_the_coherent_maximum(monkeypatch):
+    # a box eclipse (sharp edges, so the coherent peak is one grid step wide) proposed several windows
+    # away from its period: the refinement must climb to the injected period within one coherent grid
+    # step; without following the edge (max_steps=0) it stops at the window's edge (the check can fail)
+    rng = np.random.default_rng(53)
+    period, baseline = 23.7, 400.0
+    t = np.sort(rng.uniform(0.0, baseline, 8000))
+    lc = _lc(t, 1 - _trapezoid_dip(t, period, 5.0, 0.02, 0.8, ingress_fraction=0.02), 0.002, rng)
+    monkeypatch.setattr(period_module, "SEGMENT_WORK", 1.0)
+    s = period_module._setup(lc, 10.0, 40.0, 5.0, "bls", 2)
+    seg = _segments.segment_length(s.baseline, 40.0)
+    q = float(_narrowest_duty_cycle(period))
+    step = q / (5.0 * s.baseline)  # coherent step in frequency (our grid, see test above)
+    window = 3 * (1.5 * q / (period_module.SEGMENT_OVERSAMPLE * seg))
+    start = 1.0 / (1.0 / period + 4.5 * window)  # four and a half windows off
+    _, found, on_edge = period_module._coherent_peak(s, start, seg)
+    assert not on_edge
+    assert abs(1.0 / found - 1.0 / period) <= step
+    _, stuck, on_edge = period_module._coherent_peak(s, start, seg, max_steps=0)
+    assert on_edge
+    assert abs(1.0 / stuck - 1.0 / period) > window
+
+
+def test_proposal_beyond_the_range_is_dropped(monkeypatch):
+    # the coherent refinement searches only inside the search range (10-40 d here): a proposal at 45 d
+    # has no trial period left, so it is dropped rather than refined outside the range, and a search
+    # left without candidates says so (no significance)
+    rng = np.random.default_rng(54)
+    t = np.sort(rng.uniform(0.0, 400.0, 3000))
+    lc = _lc(t, np.ones_like(t), 0.002, rng)
+    monkeypatch.setattr(period_module, "SEGMENT_WORK", 1.0)
+    s = period_module._setup(lc, 10.0, 40.0, 5.0, "bls", 1)
+    power, found, _ = period_module._coherent_peak(s, 45.0, _segments.segment_length(s.baseline, 40.0))
+    assert power == -math.inf and found == 45.0
+    kept, sde = period_module._refine_segmented(s, [(45.0, "outside")], [])
+    assert kept == [] and math.isnan(sde)
+
+
 # ------------------------------------------------------------------------------------
 # eclipses measured at a given ephemeris (issue 12: "a given ephemeris keeps the binary logic")
 # ------------------------------------------------------------------------------------
