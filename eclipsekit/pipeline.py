@@ -237,6 +237,7 @@ def analyse(
     joint: bool = False,
     command: str | None = None,
     fit_options: dict[str, Any] | None = None,
+    n_jobs: int | None = None,
 ) -> Analysis:
     """Run the whole analysis of one eclipsing binary.
 
@@ -281,6 +282,9 @@ def analyse(
         The command line, recorded in ``result.json``.
     fit_options : dict, optional
         Further keyword arguments to :func:`~eclipsekit.fit_eclipses`.
+    n_jobs : int, optional
+        Threads of the period search (default: all CPU cores); the survey runs one
+        target per single-threaded worker and passes 1.
 
     Returns
     -------
@@ -306,7 +310,7 @@ def analyse(
             lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
             exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free),
             fixed=dict(fixed or {}), priors=dict(priors or {}), progress=progress, seed=seed, joint=joint,
-            fit_options=dict(fit_options or {}))
+            fit_options=dict(fit_options or {}), n_jobs=n_jobs)
         start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
             _fit_light_curve(analysis, start, options)
@@ -337,6 +341,7 @@ class _RunOptions:
     seed: int | None
     joint: bool
     fit_options: dict[str, Any]
+    n_jobs: int | None = None         # threads of the period search (None: all cores)
 
     @classmethod
     def check(cls, lc: LightCurve, velocities: VelocityCurve | None, *, exposure_time: Any,
@@ -393,7 +398,8 @@ def _search_period(analysis: Analysis, options: _RunOptions, period: float | Non
     with _Timer(analysis.timings, "period search"):
         try:
             analysis.search = find_period(analysis.lc, min_period=options.min_period,
-                                          max_period=options.max_period, progress=options.progress)
+                                          max_period=options.max_period, progress=options.progress,
+                                          n_jobs=options.n_jobs)
         except NoEclipseFound as exc:
             analysis.search = exc.search
             analysis.status = "no_eclipse_found"
