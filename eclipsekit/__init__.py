@@ -32,6 +32,8 @@ _LAZY = {
     "fit_velocities": "spectroscopy", "OrbitFit": "spectroscopy",
     "absolute_dimensions": "dimensions", "AbsoluteDimensions": "dimensions",
     "analyse": "pipeline", "Analysis": "pipeline",
+    # many targets
+    "survey": "survey",
 }
 
 __all__ = [
@@ -42,7 +44,7 @@ __all__ = [
     "solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase", "radial_velocities",
     # the analysis steps
     "find_period", "PeriodSearch", "fit_eclipses", "EclipseFit", "fit_joint", "fit_velocities", "OrbitFit",
-    "absolute_dimensions", "AbsoluteDimensions", "analyse", "Analysis",
+    "absolute_dimensions", "AbsoluteDimensions", "analyse", "Analysis", "survey",
     # errors and warnings
     "EclipsekitError", "InputError", "GeometryError", "NoEclipseFound", "FitError", "EclipsekitWarning",
     "__version__",
