@@ -175,6 +175,7 @@ def _is_listing(path: Path) -> bool:
 
 
 def _read_listing(path: Path) -> list[Target]:
+    import numpy as np
     from astropy.table import Table
 
     fmt = "ascii.ecsv" if path.suffix.lower() == ".ecsv" else (
@@ -190,8 +191,7 @@ def _read_listing(path: Path) -> list[Target]:
         def cell(name: str) -> Any:
             col = lower.get(name)
             value = None if col is None else row[col]
-            return None if value is None or getattr(value, "mask", False) is True or str(value).strip() == "" \
-                else value
+            return None if value is None or np.ma.is_masked(value) or str(value).strip() == "" else value
 
         entry = cell(file_col.lower())
         if entry is None:
