@@ -617,7 +617,7 @@ def survey(inputs: str | os.PathLike | Sequence[str | os.PathLike], out: str | o
     Each target is one task (dask.distributed; Rocklin 2015, Proc. 14th Python in Science
     Conf., 130) that runs the ordinary pipeline on the file's path.
     """
-    from tqdm.auto import tqdm
+    from tqdm import tqdm
 
     _check_options(stages, workers, timeout)
     targets = collect_targets(inputs, out)

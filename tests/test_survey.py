@@ -261,3 +261,29 @@ def test_survey_is_callable_after_importing_its_module():
     assert eclipsekit.survey.survey is survey
     with pytest.raises(InputError, match="`stages`"):
         eclipsekit.survey(["x"], "y", stages="everything")
+
+
+def test_worker_death_is_a_row(inputs, tmp_path):
+    """A task whose worker process died (dask raises KilledWorker) becomes a 'crashed' row, written at once."""
+    from distributed.scheduler import KilledWorker
+
+    from eclipsekit.survey import _Run
+
+    class DeadFuture:
+        def result(self):
+            raise KilledWorker("survey-task", None, 0)
+
+    class Bar:
+        def update(self, n):
+            pass
+
+        def set_postfix(self, **kwargs):
+            pass
+
+    (target,) = collect_targets([sorted(inputs["truth"])[0]])
+    run = _Run(None, [target], tmp_path, SurveySettings(stages="search"), None, Bar())
+    run._finished(DeadFuture(), target)
+    row = catalogue.read_part(catalogue.part_path(tmp_path, target.ident))
+    assert row["status"] == "crashed" and "worker process died" in row["message"]
+    assert run.counts["crashed"] == 1
+    assert [r["status"] for r in catalogue.read_journal(tmp_path)] == ["crashed"]
