@@ -42,7 +42,7 @@ GEOMETRIES = {
 PERIODS = [0.71, 0.93, 1.17, 1.38, 1.62, 1.85, 2.07, 2.33, 2.58, 2.81, 3.06, 3.32, 3.57, 3.84, 4.12,
            4.39, 4.63, 4.91, 5.18, 5.47]
 N_FLAT = 10
-PHASE = np.linspace(-0.5, 0.5, 8001)
+PHASE = np.linspace(-0.5, 0.5, 4001)  # eclipses >= 0.03 in phase: >= 120 grid points
 
 
 def _write(path: Path, t: np.ndarray, flux: np.ndarray) -> None:
@@ -54,7 +54,7 @@ def _write(path: Path, t: np.ndarray, flux: np.ndarray) -> None:
 def inputs(tmp_path_factory) -> dict:
     """32 invented targets: 20 eclipsing binaries, 10 constant stars, one corrupt file, one empty file."""
     folder = tmp_path_factory.mktemp("survey_inputs")
-    profiles = {name: brute_force_flux(PHASE, period=1.0, t0=0.0, ld_law="quadratic", n_r=120, n_theta=240, **g)
+    profiles = {name: brute_force_flux(PHASE, period=1.0, t0=0.0, ld_law="quadratic", n_r=100, n_theta=200, **g)
                 for name, g in GEOMETRIES.items()}
     rng = np.random.default_rng(15)
     t = np.arange(N_POINTS) * CADENCE
@@ -178,21 +178,21 @@ def test_scheduler_with_one_worker_gives_the_same_catalogue(inputs, two_workers,
 
 def test_interrupted_run_resumes_without_recomputing(inputs, tmp_path):
     out = tmp_path / "out"
-    files = sorted(inputs["truth"])[:10] + [str(inputs["folder"] / "bad" / "empty.csv")]
+    files = sorted(inputs["truth"])[:7] + [str(inputs["folder"] / "bad" / "empty.csv")]
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(Path(__file__).parents[1]),
                                                        os.environ.get("PYTHONPATH", "")]))
     command = [sys.executable, "-m", "eclipsekit.cli", "survey", *files, "--out", str(out), "--stages", "search",
                "--workers", "2", "--quiet"]
     proc = subprocess.Popen(command, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     deadline = time.monotonic() + 90
-    while len(catalogue.read_journal(out)) < 3 and time.monotonic() < deadline and proc.poll() is None:
+    while len(catalogue.read_journal(out)) < 2 and time.monotonic() < deadline and proc.poll() is None:
         time.sleep(0.2)
     proc.send_signal(signal.SIGINT)
     _, err = proc.communicate(timeout=60)
     assert proc.returncode == 130, err
     assert "interrupted" in err
     first = catalogue.read_journal(out)
-    assert 3 <= len(first) < len(files)
+    assert 2 <= len(first) < len(files)
     interrupted = pq.read_table(out / "catalogue.parquet")  # written, and readable, after the interrupt
     assert sorted(interrupted["source"].to_pylist()) == sorted(r["source"] for r in first)
 
