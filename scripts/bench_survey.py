@@ -6,8 +6,9 @@ the package's model, one third constant stars; white noise), then in one run:
 * runs each target's analysis directly in this process, one after the other (the
   survey's own per-target work: read, analysis, result files), for the baseline;
 * runs :func:`eclipsekit.survey.survey` on a LocalCluster of 1 and then 2 single-threaded
-  worker processes, started beforehand and passed as ``scheduler`` (cluster start-up is
-  a fixed cost, reported apart), for the ``search`` and ``all`` stages;
+  worker processes with the settings of the survey's own cluster, started beforehand and
+  passed as ``scheduler`` (cluster start-up is a fixed cost, reported apart), for the
+  ``search`` and ``all`` stages;
 
 and prints targets per minute, the 2-worker / 1-worker speed-up, the peak resident memory
 of each worker, and the overhead: the 1-worker survey's wall time over the direct run's,
@@ -76,11 +77,13 @@ def on_cluster(files: dict[str, list[str]], out: Path, workers: int) -> dict:
     """Survey wall times per stage on a fresh LocalCluster of ``workers`` processes, and worker memory."""
     from distributed import Client, LocalCluster
 
-    from eclipsekit.survey import survey
+    import dask
+
+    from eclipsekit.survey import _local_cluster_config, survey
 
     result: dict = {}
     clock = time.perf_counter()
-    with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+    with dask.config.set(_local_cluster_config()), LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
                       silence_logs=logging.ERROR) as cluster:
         result["startup"] = time.perf_counter() - clock
         for stages, chosen in files.items():
