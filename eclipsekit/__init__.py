@@ -33,6 +33,8 @@ _LAZY = {
     "absolute_dimensions": "dimensions", "AbsoluteDimensions": "dimensions",
     "analyse": "pipeline", "Analysis": "pipeline",
     "eclipse_times": "timings", "EclipseTimes": "timings",
+    # many targets
+    "survey": "survey",
 }
 
 __all__ = [
@@ -44,7 +46,7 @@ __all__ = [
     "solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase", "radial_velocities",
     # the analysis steps
     "find_period", "PeriodSearch", "fit_eclipses", "EclipseFit", "fit_joint", "fit_velocities", "OrbitFit",
-    "absolute_dimensions", "AbsoluteDimensions", "analyse", "Analysis", "eclipse_times", "EclipseTimes",
+    "absolute_dimensions", "AbsoluteDimensions", "analyse", "Analysis", "eclipse_times", "EclipseTimes", "survey",
     # errors and warnings
     "EclipsekitError", "InputError", "GeometryError", "NoEclipseFound", "FitError", "EclipsekitWarning",
     "__version__",

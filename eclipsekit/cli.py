@@ -322,7 +322,10 @@ _OPTION_OF = {"baseline": "--baseline", "harmonics": "--harmonics",
               "rv1_col": "--rv1-col", "rv1_err_col": "--rv1-err-col", "rv2_col": "--rv2-col",
               "rv2_err_col": "--rv2-err-col", "coordinates": "--coordinates", "labels": "--rv-labels",
               "velocity_labels": "--rv-labels", "method": "--method",
-              "fit_or_ephemeris": "--from"}
+              "fit_or_ephemeris": "--from",
+              # eclipsekit survey
+              "inputs": "INPUTS", "workers": "--workers", "scheduler": "--scheduler",
+              "stages": "--stages", "timeout": "--timeout"}
 
 #: Python values in messages -> what the option takes (`err_col=False` is --err-col none)
 _OPTION_VALUE = {"True": "", "False": "none", "None": "none"}
@@ -582,6 +585,37 @@ def _run_timings(args: argparse.Namespace, analysis: Any) -> list[str]:
     return [p.name for p in written.values()]
 
 
+def _cmd_survey(args: argparse.Namespace) -> int:
+    """Many light curves on dask.distributed into DIR/catalogue.parquet; print the summary."""
+    from .survey import summarise, survey
+
+    table = survey(args.inputs, args.out, workers=args.workers, scheduler=args.scheduler, stages=args.stages,
+                   redo=args.redo, timeout=args.timeout, figures=args.figures, progress=not args.quiet)
+    print(summarise(table))
+    return 0
+
+
+def _survey_parser(sub: Any) -> None:
+    p = sub.add_parser("survey", help="many light curves on a dask cluster into one resumable catalogue")
+    p.add_argument("inputs", nargs="+", metavar="INPUTS",
+                   help="light-curve files, folders (searched recursively) or a table listing files "
+                        "(columns light_curve, and optionally velocities, teff_primary, teff_primary_err, "
+                        "teff_secondary, teff_secondary_err, period)")
+    p.add_argument("--out", required=True, metavar="DIR", help="output folder (catalogue.parquet, targets/, ...)")
+    p.add_argument("--workers", type=int, metavar="N", help="worker processes of the local cluster "
+                   "(default: one per CPU core)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="use the running dask scheduler at ADDRESS "
+                   "(e.g. tcp://10.0.0.5:8786) instead of a local cluster")
+    p.add_argument("--stages", choices=["search", "fit", "all"], default="all",
+                   help="search: period and eclipse verdict; fit: also the eclipse fit; all (default): also "
+                        "velocities and temperatures from a listing table")
+    p.add_argument("--redo", action="store_true", help="recompute targets already done with the same input")
+    p.add_argument("--timeout", type=_positive_float, metavar="S", help="seconds allowed per target")
+    p.add_argument("--figures", action="store_true", help="also draw each target's figures")
+    _common(p)
+    p.set_defaults(func=_cmd_survey)
+
+
 # ---- parser ------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``eclipsekit`` command."""
@@ -664,6 +698,7 @@ def build_parser() -> argparse.ArgumentParser:
     _output_options(p, "eclipsekit-demo")
     _common(p)
     p.set_defaults(func=_cmd_analyse)
+    _survey_parser(sub)
     return parser
 
 

@@ -244,6 +244,7 @@ def analyse(
     velocity_labels: str = "auto",
     command: str | None = None,
     fit_options: dict[str, Any] | None = None,
+    n_jobs: int | None = None,
 ) -> Analysis:
     """Run the whole analysis of one eclipsing binary.
 
@@ -303,6 +304,9 @@ def analyse(
         The command line, recorded in ``result.json``.
     fit_options : dict, optional
         Further keyword arguments to :func:`~eclipsekit.fit_eclipses`.
+    n_jobs : int, optional
+        Threads of the period search (default: all CPU cores); the survey runs one
+        target per single-threaded worker and passes 1.
 
     Returns
     -------
@@ -334,7 +338,8 @@ def analyse(
             lc, velocities, measured=measured, min_period=min_period, max_period=max_period,
             exposure_time=exposure_time, errors=errors, fix=tuple(fix), free=tuple(free),
             fixed=dict(fixed or {}), priors=dict(priors or {}), progress=progress, seed=seed, joint=joint,
-            velocity_labels=velocity_labels, fit_options={"baseline": baseline, **dict(fit_options or {})})
+            velocity_labels=velocity_labels, fit_options={"baseline": baseline, **dict(fit_options or {})},
+            n_jobs=n_jobs)
         start = _search_period(analysis, options, period, t0)
         if analysis.status == "ok":
             _fit_light_curve(analysis, start, options)
@@ -366,6 +371,7 @@ class _RunOptions:
     joint: bool
     velocity_labels: str
     fit_options: dict[str, Any]
+    n_jobs: int | None = None         # threads of the period search (None: all cores)
 
     @classmethod
     def check(cls, lc: LightCurve, velocities: VelocityCurve | None, *, exposure_time: Any,
@@ -433,7 +439,8 @@ def _search_period(analysis: Analysis, options: _RunOptions, period: float | Non
     with _Timer(analysis.timings, "period search"):
         try:
             analysis.search = find_period(analysis.lc, min_period=options.min_period,
-                                          max_period=options.max_period, progress=options.progress)
+                                          max_period=options.max_period, progress=options.progress,
+                                          n_jobs=options.n_jobs)
         except NoEclipseFound as exc:
             analysis.search = exc.search
             analysis.status = "no_eclipse_found"

@@ -27,6 +27,7 @@ __all__ = [
     "plot_mass_radius_luminosity",
     "plot_analysis",
     "plot_o_minus_c",
+    "plot_catalogue",
     "save_figure",
 ]
 
@@ -399,3 +400,55 @@ def plot_o_minus_c(times: Any) -> Figure:
     ax.set_ylabel("O − C (min)")
     ax.legend(loc="best", frameon=False)
     return fig
+
+
+def plot_catalogue(table: Any) -> dict[str, Figure]:
+    """The figures of a survey catalogue: period histogram, depth against period, counts by status.
+
+    ``table`` has the catalogue's columns (``status``, ``period``, ``depth_primary``,
+    ``depth_secondary``); targets without a period are left out of the first two.
+    """
+    period = np.asarray(table["period"], float) if len(table) else np.array([])
+    has = np.isfinite(period) & (period > 0)
+    figures: dict[str, Figure] = {}
+
+    fig = _figure(2.6)
+    ax = fig.subplots()
+    if has.any():
+        lo, hi = period[has].min(), period[has].max()
+        edges = np.geomspace(lo / 1.05, hi * 1.05, max(5, min(40, int(np.sqrt(has.sum())) + 4)))
+        ax.hist(period[has], bins=edges, color=PALETTE["blue"], edgecolor="white", linewidth=0.4)
+        ax.set_xscale("log")
+        _plain_log_axis(ax.xaxis)
+    ax.set_xlabel("Period (d)")
+    ax.set_ylabel("Targets")
+    ax.set_title(f"{int(has.sum())} targets with a period", loc="left")
+    figures["catalogue_periods"] = fig
+
+    fig = _figure(2.8)
+    ax = fig.subplots()
+    for column, colour, marker, label in (("depth_primary", PALETTE["blue"], "o", "primary"),
+                                          ("depth_secondary", PALETTE["orange"], "s", "secondary")):
+        depth = np.asarray(table[column], float) if len(table) else np.array([])
+        ok = has & np.isfinite(depth) & (depth > 0)
+        ax.plot(period[ok], depth[ok], marker, ms=3, mfc="none", mew=0.7, color=colour, label=label, ls="none")
+    if has.any():
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        _plain_log_axis(ax.xaxis)
+        ax.legend(loc="best", frameon=False)
+    ax.set_xlabel("Period (d)")
+    ax.set_ylabel("Eclipse depth (fraction of flux)")
+    figures["catalogue_depths"] = fig
+
+    fig = _figure(2.6)
+    ax = fig.subplots()
+    words, counts = np.unique(np.asarray(table["status"], str), return_counts=True) if len(table) else ([], [])
+    ax.barh(list(words), list(counts), color=PALETTE["green"])
+    for y, n in enumerate(counts):
+        ax.text(n, y, f" {n}", va="center", fontsize=7)
+    ax.set_xlabel("Targets")
+    ax.set_title("Targets by status", loc="left")
+    ax.invert_yaxis()
+    figures["catalogue_status"] = fig
+    return figures
