@@ -634,7 +634,7 @@ def survey(inputs: str | os.PathLike | Sequence[str | os.PathLike], out: str | o
     Each target is one task (dask.distributed; Rocklin 2015, Proc. 14th Python in Science
     Conf., 130) that runs the ordinary pipeline on the file's path.
     """
-    from tqdm import tqdm
+    from ._progress import progress_bar
 
     _check_options(stages, workers, timeout)
     targets = collect_targets(inputs, out)
@@ -651,7 +651,7 @@ def survey(inputs: str | os.PathLike | Sequence[str | os.PathLike], out: str | o
         stale.unlink(missing_ok=True)
     settings = SurveySettings(stages=stages, figures=figures, redo=redo)
     clock = _time.perf_counter()
-    bar = tqdm(total=len(targets), unit="target", disable=not (progress and sys.stderr.isatty()))
+    bar = progress_bar(total=len(targets), progress=progress, unit="target")
     try:
         with _sigterm_as_interrupt(), _client(workers, scheduler) as client:
             _preload(client)
