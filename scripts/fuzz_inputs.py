@@ -42,8 +42,9 @@ import numpy as np
 #: Trial periods a fuzzed search may have (keeps each search well under a second).
 GRID_BUDGET = 5_000
 #: Options of the fit: the limb-darkening plausibility check is skipped, the fit
-#: windows are used (same model, fewer points): both only save time.
-FIT_OPTIONS = {"progress": False, "check_limb_darkening": False, "window": True}
+#: windows are used (same model, fewer points), and an MCMC the default errors fall back
+#: to stops after 5 s (by default it runs all its steps): all three only save time.
+FIT_OPTIONS = {"progress": False, "check_limb_darkening": False, "window": True, "mcmc_seconds": 5.0}
 
 
 # ---------------------------------------------------------------------------------------

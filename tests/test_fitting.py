@@ -460,8 +460,10 @@ def test_warns_when_fixed_limb_darkening_is_wrong():
     # fit says so in further warnings (poor fit, outlier rejection stopped, not converged cleanly)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
+        # the polynomial baseline: with the eclipses this badly modelled, the automatic choice adopts a Gaussian
+        # process (it absorbs part of the misfit; reported in the closing note), and the check is of the fit itself
         fit = fit_eclipses(lc, start, ld_primary=(0.1, 0.0), ld_secondary=(0.9, 0.0), fix=["limb_darkening"],
-                           progress=False)
+                           progress=False, baseline="polynomial")
     issued = [str(w.message) for w in caught]
     assert all(issubclass(w.category, EclipsekitWarning) for w in caught), issued
     assert any("limb darkening is held fixed" in m for m in issued)
