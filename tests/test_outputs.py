@@ -232,12 +232,48 @@ def test_read_only_folder_refused_first(inputs, tmp_path, monkeypatch, capsys):
 
 
 # -- item 18: the README's example output is what the demo prints --------------------------------
+_NUMBER = re.compile(r"(?<![A-Za-z_\d.])-?\d+(?:\.\d+)?")
+_PAIR = re.compile(r"(-?\d+(?:\.\d+)?) ± (\d+(?:\.\d+)?)")
+
+
+def _last_digit(text: str) -> float:
+    """One unit of the last printed digit of a number written as ``text``."""
+    return 10.0 ** -len(text.split(".")[1]) if "." in text else 1.0
+
+
+def _same_output_line(now: str, saved: str) -> bool:
+    """Same words and layout; "v ± e" within a quarter of e; other numbers within 2 of their last digit.
+
+    Not to the last digit: the fit stops at slightly different points of the flat limb-darkening
+    valley on different processors (see tests/test_golden.py), e.g. an uncertainty share of 86% vs 85%.
+    """
+    if _NUMBER.sub("#", now) != _NUMBER.sub("#", saved):
+        return False
+    for (v1, e1), (v2, e2) in zip(_PAIR.findall(now), _PAIR.findall(saved)):
+        if abs(float(v1) - float(v2)) > 0.25 * float(e2) or abs(float(e1) - float(e2)) > 2 * _last_digit(e2):
+            return False
+    rest_now, rest_saved = _NUMBER.findall(_PAIR.sub("", now)), _NUMBER.findall(_PAIR.sub("", saved))
+    return all(abs(float(a) - float(b)) <= 2 * _last_digit(b) for a, b in zip(rest_now, rest_saved))
+
+
 def test_readme_example_is_a_real_demo_run(demo_runs):
     # a consistency check of the documentation with the code's output now (no outside reference)
     printed, _ = demo_runs[0]
     readme = (ROOT / "README.md").read_text(encoding="utf-8")
     expected = readme_demo_output.with_block(readme, readme_demo_output.readme_block(printed))
-    assert readme == expected, "README.md's demo output is stale: run python scripts/readme_demo_output.py"
+    now_lines, saved_lines = expected.splitlines(), readme.splitlines()
+    assert len(now_lines) == len(saved_lines), "README.md's demo output is stale: run python scripts/readme_demo_output.py"
+    stale = [(a, b) for a, b in zip(now_lines, saved_lines) if a != b and not _same_output_line(a, b)]
+    assert not stale, f"README.md's demo output is stale (run python scripts/readme_demo_output.py): {stale[:3]}"
+
+
+def test_readme_comparison_can_fail():
+    # the tolerant comparison above still catches a moved value and a changed word
+    assert _same_output_line("  R1   1.5910 ± 0.0037 R_sun", "  R1   1.5909 ± 0.0037 R_sun")
+    assert not _same_output_line("  R1   1.5930 ± 0.0037 R_sun", "  R1   1.5910 ± 0.0037 R_sun")
+    assert not _same_output_line("  R2   1.5910 ± 0.0037 R_sun", "  R1   1.5910 ± 0.0037 R_sun")
+    assert _same_output_line("    M1:      85% from K2, 15% from K1", "    M1:      86% from K2, 14% from K1")
+    assert not _same_output_line("    M1:      80% from K2, 20% from K1", "    M1:      86% from K2, 14% from K1")
 
 
 def test_demo_default_seed_is_the_readmes():
