@@ -51,3 +51,23 @@ def test_ball_keeps_correlations_and_caps_widths():
     assert np.sqrt(ball[0, 0]) == 1.0  # a tenth of the range 0..10
     assert ball[1, 1] == 0.25          # inside its cap: unchanged
     assert np.isclose(ball[0, 1] / np.sqrt(ball[0, 0] * ball[1, 1]), 0.9)
+
+
+def test_sampler_refusal_is_a_fit_error(monkeypatch):
+    # regression test: emcee's ValueError ("At least one parameter value was NaN", seen once in a survey
+    # benchmark run and not reproduced) reached the user as a traceback; it is now the package's FitError
+    import pytest
+
+    import eclipsekit as ek
+    from eclipsekit.errors import FitError
+    from eclipsekit.fit.uncertainties import mcmc
+
+    from _systems import light_curve_arrays
+
+    def refuse(*args, **kwargs):
+        raise ValueError("At least one parameter value was NaN")
+
+    monkeypatch.setattr(mcmc, "_run", refuse)
+    t, f, e = light_curve_arrays("partial", 1, n_orbits=2)
+    with pytest.raises(FitError, match="MCMC could not sample"):
+        ek.fit_eclipses(ek.LightCurve(t, f, e), errors="mcmc", progress=False, check_third_light=False)

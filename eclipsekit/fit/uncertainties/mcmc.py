@@ -37,7 +37,13 @@ class McmcMethod:
         try:
             pos = _start_positions(ctx)
             t_mc = _time.perf_counter()
-            sampler, steps = _run(pr, pos, st)
+            try:
+                sampler, steps = _run(pr, pos, st)
+            except ValueError as exc:  # emcee's own refusals (NaN parameters, a degenerate ensemble)
+                from ...errors import FitError
+
+                raise FitError(f"the MCMC could not sample this fit ({exc}); try `errors='covariance'` "
+                               "or fix poorly constrained parameters") from None
             seconds = _time.perf_counter() - t_mc
             out = _chain_summary(ctx, sampler, steps, pos.shape[0], scale)
             out.diagnostics = {"mcmc_seconds": seconds, **out.diagnostics}
@@ -76,7 +82,7 @@ def _start_positions(ctx: UncertaintyContext) -> np.ndarray:
     """Walker starts: along the profile of a degenerate radius ratio, else draws from the covariance."""
     if ctx.settings.mcmc_profile and "radius_ratio" in ctx.mapping.free and ctx.profile is not None:
         pos = _valley_positions(ctx)
-        if pos is not None:
+        if pos is not None and np.all(np.isfinite(pos)):
             return pos
     return _covariance_positions(ctx)
 
@@ -104,14 +110,15 @@ def _valley_positions(ctx: UncertaintyContext) -> np.ndarray | None:
     for fac in _PROFILE_FACTORS:
         k = float(np.clip(k0 * fac, lo, hi))
         found = ctx.profile("radius_ratio", k)
-        if found is not None and found[1] < 11.6 * ctx.redchi:
+        if found is not None and found[1] < 11.6 * ctx.redchi and np.all(np.isfinite(found[0])):
             points.append(found[0])
     if len(points) < 2:
         return None
     nvar = len(pm.free)
     nwalk = max(int(ctx.settings.mcmc_walkers), 2 * nvar + 2)
     pts = np.array(points)
-    ball = ctx.covariance if ctx.covariance is not None else np.diag(np.full(nvar, 1e-8))
+    ball = _bounded_ball(ctx.covariance if ctx.covariance is not None else np.diag(np.full(nvar, 1e-8)),
+                         pm.lower, pm.upper)
     pos = pts[np.arange(nwalk) % len(pts)] + ctx.rng.multivariate_normal(np.zeros(nvar), 0.01 * ball, size=nwalk)
     pos = pm.fold(pos)
     return np.clip(pos, pm.lower + 1e-9 * (pm.upper - pm.lower), pm.upper - 1e-9 * (pm.upper - pm.lower))
