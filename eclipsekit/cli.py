@@ -341,7 +341,7 @@ def _option_names(args: argparse.Namespace) -> dict[str, str]:
     dests = set(vars(args))
     if args.command == "demo":
         dests |= set(vars(build_parser().parse_args(["run", "lc.csv"])))
-    return {name: option for name, option in _OPTION_OF.items() if option.lstrip("-").replace("-", "_") in dests}
+    return {name: option for name, option in _OPTION_OF.items() if option.lstrip("-").replace("-", "_").lower() in dests}
 
 
 def _in_option_terms(message: str, names: dict[str, str]) -> str:
@@ -469,13 +469,17 @@ def _cmd_analyse(args: argparse.Namespace) -> int:
         joint=getattr(args, "joint", False), coordinates=coordinates,
         velocity_labels=getattr(args, "rv_labels", "auto"), command=args.command_line, fit_options=fit_options,
         **choices)
+    if getattr(args, "timings", False) and analysis.eclipse_fit is not None:
+        from .timings import eclipse_times
+
+        analysis.eclipse_times = eclipse_times(analysis.lc, analysis.eclipse_fit, progress=not args.quiet)
     written = analysis.write(args.out, overwrite=args.overwrite)
     print(_in_option_terms(analysis.summary(), _option_names(args)))
-    names = [p.name for p in written.values()]
-    if getattr(args, "timings", False):
-        names += _run_timings(args, analysis)
+    if analysis.eclipse_times is not None:
+        print()
+        print(analysis.eclipse_times.summary())
     print()
-    print(f"Results written to {args.out}/: " + ", ".join(sorted(names)))
+    print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
     # "poor_fit" and "caution" are answers with a caveat (on the summary's first line); the rest did not conclude
     return 0 if analysis.status in ("ok", "poor_fit", "caution") else 1
 
@@ -528,7 +532,7 @@ def _cmd_dimensions(args: argparse.Namespace) -> int:
 def _cmd_timings(args: argparse.Namespace) -> int:
     """Times of minimum and the O−C analysis, from a result.json, an ephemeris, or a fit made here."""
     from .pipeline import write_timing_files
-    from .results import load_result, prepare_output_dir
+    from .results import load_result, output_folder, prepare_output_dir
     from .timings import eclipse_times
 
     if args.from_result is not None and (args.period is not None or args.t0 is not None):
@@ -548,7 +552,8 @@ def _cmd_timings(args: argparse.Namespace) -> int:
             return 1
         source = analysis.eclipse_fit
     times = eclipse_times(lc, source, method=args.method, progress=not args.quiet)
-    written = write_timing_files(args.out, times, command=args.command_line)
+    with output_folder(args.out, overwrite=args.overwrite, command=args.command_line) as folder:
+        written = write_timing_files(folder, times, command=args.command_line)
     print(times.summary())
     print()
     print(f"Results written to {args.out}/: " + ", ".join(sorted(p.name for p in written.values())))
@@ -569,20 +574,6 @@ def _analysis_for_timings(args: argparse.Namespace, lc: Any) -> Any:
     return analyse(lc, min_period=args.min_period, max_period=args.max_period, period=args.period, t0=args.t0,
                    exposure_time=exposure, errors=args.errors, progress=not args.quiet, seed=args.seed,
                    command=args.command_line, fit_options=fit_options, **_fit_choices(args))
-
-
-def _run_timings(args: argparse.Namespace, analysis: Any) -> list[str]:
-    """`run --timings`: time the eclipses with the run's fit and write the timing files beside its results."""
-    from .pipeline import write_timing_files
-    from .timings import eclipse_times
-
-    if analysis.eclipse_fit is None:
-        return []
-    times = eclipse_times(analysis.lc, analysis.eclipse_fit, progress=not args.quiet)
-    written = write_timing_files(args.out, times, command=args.command_line)
-    print()
-    print(times.summary())
-    return [p.name for p in written.values()]
 
 
 def _cmd_survey(args: argparse.Namespace) -> int:

@@ -45,6 +45,9 @@ class Analysis:
     eclipse_fit : EclipseFit or None
     orbit : OrbitFit or None
     dimensions : AbsoluteDimensions or None
+    eclipse_times : EclipseTimes or None
+        Times of minimum and the O−C analysis (:func:`~eclipsekit.timings.eclipse_times`), when
+        asked for; written with the other files.
     status : {'ok', 'poor_fit', 'caution', 'no_eclipse_found'}
         The eclipse fit's status when it ran (:attr:`EclipseFit.status
         <eclipsekit.fit.EclipseFit>`: "poor_fit" when the model does not describe the
@@ -68,6 +71,7 @@ class Analysis:
     eclipse_fit: Any = None
     orbit: Any = None
     dimensions: Any = None
+    eclipse_times: Any = None
     status: str = "ok"
     message: str = ""
     warnings: list[str] = field(default_factory=list)
@@ -123,6 +127,9 @@ class Analysis:
                 for name, path in self.plot(folder, formats=formats).items():
                     written[name] = path
             written["summary"] = results.write_text(folder / "summary.txt", self.summary())
+            if self.eclipse_times is not None:
+                written.update(write_timing_files(folder, self.eclipse_times, command=self.command, figures=figures,
+                                                  formats=formats))
             written["result"] = results.write_json(folder / "result.json", content)
         return {role: Path(out) / path.name for role, path in written.items()}
 
@@ -549,8 +556,9 @@ def write_timing_files(out: str | os.PathLike, times: Any, *, command: str | Non
     """Write ``eclipse_times.ecsv``, the O−C figure, ``timings.txt`` and (last) ``timings.json`` into ``out``.
 
     The files of ``eclipsekit timings`` and ``run --timings`` for an
-    :class:`~eclipsekit.timings.EclipseTimes`; the folder must exist
-    (:func:`~eclipsekit.results.prepare_output_dir`); each file is written atomically.
+    :class:`~eclipsekit.timings.EclipseTimes`, into a folder that exists: the staging folder of
+    :func:`~eclipsekit.results.output_folder` (``timings``) or of :meth:`Analysis.write` (``run``),
+    so that they are in the run's manifest.
     """
     from . import plots
     from .summary import format_timings
