@@ -332,7 +332,9 @@ def choose_baseline(time: np.ndarray, rel_resid: np.ndarray, rel_err: np.ndarray
        residuals (Schwarz 1978), kept only when it beats no harmonic by 10.
     2. Red noise: what remains is fitted with white noise (a jitter term) and with a GP
        (SHO kernel plus jitter; Foreman-Mackey et al. 2017) by maximum likelihood; the GP
-       is adopted when its BIC is lower by more than 10 (3 extra parameters).
+       is adopted when its BIC is lower by more than 10 (3 extra parameters) and the
+       residuals scatter more than the quoted errors allow (reduced chi-square above
+       1 + 3 sqrt(2/n)).
     """
     n = rel_resid.size
     h, bic, redchi_out = _harmonics_by_bic(time, rel_resid, rel_err, period, t_ref, 1 if forced == "fourier" else 0)
@@ -348,11 +350,17 @@ def choose_baseline(time: np.ndarray, rel_resid: np.ndarray, rel_err: np.ndarray
                                        start={"rho": period})
     d_gp = 2 * (ll_gp - ll_white) - 3 * math.log(n)
     d_h = bic[0] - bic[h]
-    kind = "gp" if forced == "gp" or (forced == "auto" and d_gp > DELTA_BIC) else \
+    # a correlated signal adds variance: residuals whose scatter matches the quoted errors (reduced chi-square
+    # within 3 sigma of 1, its sampling scatter sqrt(2/n); common practice) call for no GP, whatever the BIC.
+    # Without this test, white-noise light curves whose eclipses were poorly modelled got a GP (BIC 30-50
+    # better) that took up the slow trends the misfit left in the per-segment polynomial
+    excess = redchi_out > 1 + 3 * math.sqrt(2 / max(n, 1))
+    kind = "gp" if forced == "gp" or (forced == "auto" and d_gp > DELTA_BIC and excess) else \
         "fourier" if h > 0 or forced == "fourier" else "polynomial"
     why = (f"{h} orbital harmonic(s): BIC lower by {d_h:.0f} than none" if h else
            "no orbital harmonic lowers the BIC by 10") + \
-          f"; GP vs white noise on what remains: BIC lower by {d_gp:.0f} (adopted above 10)"
+        (f"; GP vs white noise on what remains: BIC lower by {d_gp:.0f} (adopted above 10 when the residuals "
+         f"scatter beyond their errors: reduced chi-square {redchi_out:.3f})")
     how = "chosen from the out-of-eclipse residuals" if forced == "auto" else f"baseline={forced!r} requested"
     label = {"polynomial": "polynomial per segment",
              "fourier": f"polynomial per segment + {h} orbital harmonic(s) (Fourier series in phase)",
