@@ -397,14 +397,20 @@ def test_fit_error_names_what_failed(monkeypatch):
         fit_eclipses(lc, start, progress=False)
 
 
-def test_out_of_eclipse_variation_is_flagged():
-    # ellipsoidal-like variation (cos 4 pi phase, 5 ppt) is outside the spherical-star model, which must say so
+def _ellipsoidal_like():
+    """The total system with ellipsoidal-like variation (cos 4 pi phase, 5 ppt): light curve and start."""
     t_all, f_all = _clean_curve("total")
     t, f = t_all[::4], f_all[::4]
     phase = (t - TOTAL["t0"]) / TOTAL["period"]
     f = f * (1 - 0.005 * np.cos(4 * np.pi * phase))
     lc = _lc(t, f, 5e-4, np.random.default_rng(6))
     start = _measured_start(t_all, f_all, TOTAL["period"], TOTAL["t0"])
+    return lc, start
+
+
+def test_out_of_eclipse_variation_is_flagged():
+    # ellipsoidal-like variation is outside the spherical-star model, which must say so
+    lc, start = _ellipsoidal_like()
     # with the polynomial baseline forced, the variation is left in the residuals and flagged
     with pytest.warns(EclipsekitWarning) as record:
         fit = fit_eclipses(lc, start, ld_primary=TOTAL["ld_primary"], ld_secondary=TOTAL["ld_secondary"],
@@ -415,12 +421,7 @@ def test_out_of_eclipse_variation_is_flagged():
 
 def test_out_of_eclipse_variation_is_modelled_by_default():
     # the same variation (a pure second harmonic of the orbit) is taken up by the automatic Fourier baseline
-    t_all, f_all = _clean_curve("total")
-    t, f = t_all[::4], f_all[::4]
-    phase = (t - TOTAL["t0"]) / TOTAL["period"]
-    f = f * (1 - 0.005 * np.cos(4 * np.pi * phase))
-    lc = _lc(t, f, 5e-4, np.random.default_rng(6))
-    start = _measured_start(t_all, f_all, TOTAL["period"], TOTAL["t0"])
+    lc, start = _ellipsoidal_like()
     fit = fit_eclipses(lc, start, ld_primary=TOTAL["ld_primary"], ld_secondary=TOTAL["ld_secondary"],
                        progress=False, errors="covariance")
     # the second harmonic is found; (a GP is also adopted here on what remains: see the baseline note)
