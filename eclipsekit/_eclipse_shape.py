@@ -26,6 +26,8 @@ import math
 
 import numpy as np
 
+from .orbit import phase_harmonics
+
 __all__ = ["N_HARM_SMOOTH", "N_HARM_WAVE", "BINS_PER_WINDOW", "MAX_WINDOW_HALF", "BIC_MARGIN",
            "eclipse_versus_smooth"]
 
@@ -49,11 +51,8 @@ BIC_MARGIN = 10.0
 
 
 def _fourier_columns(phase: np.ndarray, n_harm: int) -> list[np.ndarray]:
-    x = 2.0 * np.pi * phase
-    cols = [np.ones_like(phase)]
-    for k in range(1, n_harm + 1):
-        cols += [np.cos(k * x), np.sin(k * x)]
-    return cols
+    """A constant and the first ``n_harm`` orbital harmonics, as a list of columns."""
+    return [np.ones_like(phase)] + list(phase_harmonics(phase, n_harm).T)
 
 
 def _weighted_fit(columns: list[np.ndarray], y: np.ndarray, sw: np.ndarray) -> tuple[float, np.ndarray]:

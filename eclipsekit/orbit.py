@@ -36,7 +36,7 @@ from ._validate import as_float, as_times
 from .errors import GeometryError
 
 __all__ = ["solve_kepler", "true_anomaly", "sky_separation", "conjunction_times", "secondary_phase",
-           "radial_velocities", "eccentricity_omega", "orbital_phase"]
+           "radial_velocities", "eccentricity_omega", "orbital_phase", "phase_harmonics"]
 
 _TWO_PI = 2.0 * np.pi
 _KMS = u.km / u.s
@@ -458,3 +458,15 @@ def orbital_phase(time, period: float, t0: float, start: float = 0.0) -> np.ndar
     All in days; ``start = -0.25`` keeps the primary eclipse clear of the edges of a plot.
     """
     return np.mod((np.asarray(time, float) - t0) / period - start, 1.0) + start
+
+
+def phase_harmonics(phase, harmonics: int) -> np.ndarray:
+    """cos and sin of 2 pi j phase for j = 1..``harmonics``: columns of shape (n, 2 harmonics).
+
+    The design-matrix columns of a Fourier series in orbital phase (phase in cycles).
+    """
+    x = _TWO_PI * np.asarray(phase, float)
+    cols = []
+    for j in range(1, harmonics + 1):
+        cols += [np.cos(j * x), np.sin(j * x)]
+    return np.column_stack(cols) if cols else np.zeros((x.size, 0))

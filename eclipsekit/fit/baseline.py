@@ -39,6 +39,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from .. import orbit
 from .problem import Problem
 
 __all__ = ["BASELINES", "MAX_HARMONICS", "VariabilityProblem", "fourier_columns", "sho_kernel",
@@ -55,11 +56,7 @@ Q_RANGE = (1 / math.sqrt(2), 100.0)
 
 def fourier_columns(time: np.ndarray, period: float, t_ref: float, harmonics: int) -> np.ndarray:
     """cos and sin of 2 pi j (time - t_ref) / period for j = 1..``harmonics``: shape (n, 2 harmonics)."""
-    ph = 2 * np.pi * (np.asarray(time, float) - t_ref) / period
-    cols = []
-    for j in range(1, harmonics + 1):
-        cols += [np.cos(j * ph), np.sin(j * ph)]
-    return np.column_stack(cols) if cols else np.zeros((len(ph), 0))
+    return orbit.phase_harmonics((np.asarray(time, float) - t_ref) / period, harmonics)
 
 
 def sho_kernel(hyper: Mapping[str, float]) -> Any:

@@ -14,6 +14,7 @@ from typing import Any, Callable, Mapping
 
 import numpy as np
 
+from .. import orbit
 from ..errors import FitError, InputError
 from .parameters import LD_LAWS, parameter_names
 from .problem import window_mask
@@ -85,8 +86,7 @@ def _out_of_eclipse_variation(values: Mapping[str, float], time: np.ndarray, flu
                               rel_resid: np.ndarray, redchi: float) -> str | None:
     """Warning when the out-of-eclipse residuals vary at the orbital period or its first harmonic."""
     ph = ((time - values["t0"]) / values["period"]) % 1.0
-    A = np.column_stack([np.cos(2 * np.pi * ph), np.sin(2 * np.pi * ph), np.cos(4 * np.pi * ph),
-                         np.sin(4 * np.pi * ph)])
+    A = orbit.phase_harmonics(ph, 2)
     wts = 1 / flux_err
     coef, *_ = np.linalg.lstsq(A * wts[:, None], rel_resid * wts, rcond=None)
     try:
