@@ -433,8 +433,7 @@ def orbit_doubts(orbit: Any) -> list[str]:
             continue
         err = errs.get(key)
         if k <= 1e-9 * max(1.0, abs(vals.get("gamma", 0.0))) or (err is not None and k < 3 * err):
-            shown = format_value(k, err) if err else f"{k:.3g}"
-            out.append(f"{label} = {shown} km/s is consistent with zero: the {star}'s velocities show no orbit "
+            out.append(f"{label} = {format_value(k, err)} km/s is consistent with zero: the {star}'s velocities show no orbit "
                        f"at the light curve's ephemeris (check the period, t0 and the velocities' time system)")
     return out
 
@@ -917,7 +916,7 @@ def _choose_labels(rv: VelocityCurve, ephemeris: Any, options: dict[str, Any], l
         return rv, "not checked"
     if chi_given - chi_swapped > _LABEL_DELTA_CHI2:
         def k_text(best: dict[str, float]) -> str:
-            return ", ".join(f"{lab} = {best[key]:.3g} km/s" for key, lab in
+            return ", ".join(f"{lab} = {format_value(best[key])} km/s" for key, lab in
                              (("k_primary", "K1"), ("k_secondary", "K2")) if key in best)
         actual = (f"{name1!r} belongs to the star eclipsed at secondary eclipse" if has1
                   else f"{name2!r} belongs to the star eclipsed at primary eclipse")
