@@ -164,6 +164,18 @@ def brute_force_flux(time, *, period, t0, radius_sum, radius_ratio, inclination,
     return (1 - third_light) * flux + third_light
 
 
+def exposure_averaged_flux(time, exposure: float, n_sub: int = 15, **system) -> np.ndarray:
+    """:func:`brute_force_flux` averaged over an exposure of ``exposure`` days centred on each time.
+
+    The mean of ``n_sub`` instants at the midpoints of equal sub-intervals (the composite
+    midpoint rule), as a detector integrating over its exposure records; independent of the
+    package's Gauss-Legendre smearing.
+    """
+    time = np.asarray(time, float)
+    offsets = ((np.arange(n_sub) + 0.5) / n_sub - 0.5) * exposure
+    return np.mean([brute_force_flux(time + dt, **system) for dt in offsets], axis=0)
+
+
 def overlap_area(z: float, p: float) -> float:
     """Exact area of the intersection of a unit circle and a circle of radius p at distance z.
 

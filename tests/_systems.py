@@ -16,7 +16,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from _brute_force import brute_force_flux
+from _brute_force import brute_force_flux, exposure_averaged_flux
 
 CADENCE = 2.0 / 1440  # days
 
@@ -143,13 +143,19 @@ def _gapped_long_cadence(start: float, span: float, n: int, gap_every: float, ga
     return slots
 
 
+@lru_cache(maxsize=None)
+def _spotted_eclipses(span: float, n_r: int, n_theta: int) -> tuple[np.ndarray, np.ndarray]:
+    t = _gapped_long_cadence(0.0, span, 10 ** 9, 13.7, 1.0)
+    return t, exposure_averaged_flux(t, LONG_CADENCE, n_r=n_r, n_theta=n_theta, **LONG_SYSTEMS["spotted-short"])
+
+
 def spotted_binary_arrays(seed: int, *, span: float = 27.0, sigma: float = 2e-3, rho: float = 0.6,
                           spot_amplitude: float = 0.04, n_r: int = 120, n_theta: int = 240):
-    """The spotted short-period binary at 30-minute cadence: brute-force eclipses times a spot wave at
-    the (synchronised) orbital period, plus AR(1) noise.  Returns ``(time, flux, flux_err)``."""
+    """The spotted short-period binary at 30-minute cadence: brute-force eclipses integrated over
+    each 30-minute exposure (fit with ``exposure_time=LONG_CADENCE``), times a spot wave at the
+    (synchronised) orbital period, plus AR(1) noise.  Returns ``(time, flux, flux_err)``."""
     s = LONG_SYSTEMS["spotted-short"]
-    t = _gapped_long_cadence(0.0, span, 10 ** 9, 13.7, 1.0)
-    f = brute_force_flux(t, n_r=n_r, n_theta=n_theta, **s)
+    t, f = _spotted_eclipses(span, n_r, n_theta)
     rng = np.random.default_rng(seed)
     f = f * (1.0 + spot_wave(t, s["period"], spot_amplitude / 2, rng))  # 4% peak to peak
     return t, f + ar1_noise(rng, t.size, sigma, rho), np.full(t.size, sigma)
@@ -175,14 +181,14 @@ def _one_long_orbit(name: str, n_r: int, n_theta: int) -> tuple[np.ndarray, np.n
     s = LONG_SYSTEMS[name]
     n = int(round(s["period"] / LONG_CADENCE))
     phase_slots = np.arange(n) * LONG_CADENCE
-    return phase_slots, brute_force_flux(phase_slots, n_r=n_r, n_theta=n_theta, **s)
+    return phase_slots, exposure_averaged_flux(phase_slots, LONG_CADENCE, n_r=n_r, n_theta=n_theta, **s)
 
 
 def eccentric_long_arrays(seed: int, *, span: float = 1470.0, n_points: int = 65_000, sigma: float = 4e-4,
                           rho: float = 0.3, n_r: int = 120, n_theta: int = 240):
     """The four-year eccentric pair at 30-minute cadence: ``n_points`` over ``span`` days, a 3-day gap
-    every 93 days, brute-force eclipses (one orbit computed, repeated: the cadence divides the period)
-    and AR(1) noise.  Returns ``(time, flux, flux_err)``."""
+    every 93 days, brute-force eclipses integrated over each 30-minute exposure (one orbit computed,
+    repeated: the cadence divides the period) and AR(1) noise.  Returns ``(time, flux, flux_err)``."""
     s = LONG_SYSTEMS[name := "eccentric-long"]
     slots, f1 = _one_long_orbit(name, n_r, n_theta)
     t = _gapped_long_cadence(0.0, span, n_points, 93.0, 3.0)

@@ -596,3 +596,30 @@ def test_python_fit_with_given_ephemeris_starts_eccentric(eccentric_csv):
     for key in ("ecosw", "esinw"):
         assert abs(fit.values[key] - tr[key]) < 3 * fit.uncertainties[key], (key, fit.values[key], tr[key])
     assert fit.status != "poor_fit", fit.status_reasons
+
+
+# -- real light curves: a spotted short-period binary, end to end (issue 12) -------------------------
+def test_spotted_short_period_binary_end_to_end():
+    # The young M-dwarf pair analogue of tests/_systems.py ("spotted-short": r1 + r2 = 0.50, k = 0.92,
+    # i = 79 deg, P = 0.86 d; eclipses from the independent brute-force integrator averaged over each
+    # 30-minute exposure, a 4% spot wave of drifting amplitude, AR(1) noise), analysed with no option but
+    # the exposure time a satellite file carries.  Near-twin partial eclipses leave k, i and r1 + r2 in a
+    # long valley: the first least-squares minimum was k = 0.67, i = 83 deg (r2 22% low, z = -61).  The
+    # MCMC chain is shortened to 600 steps to keep the suite quick; the full default run (2,000 steps) gave
+    # r1, r2 within 1 sigma and 1.3% for seeds 1 and 3.
+    from eclipsekit.data import LightCurve
+    from eclipsekit.pipeline import analyse
+    from _systems import LONG_CADENCE, LONG_SYSTEMS, spotted_binary_arrays
+
+    s = LONG_SYSTEMS["spotted-short"]
+    t, f, e = spotted_binary_arrays(1)
+    result = analyse(LightCurve(t, f, e, meta={"exposure_time": LONG_CADENCE}), progress=False, seed=1,
+                     fit_options={"mcmc_steps": 600})
+    fit = result.eclipse_fit
+    assert fit.diagnostics["baseline"]["kind"] in ("fourier", "gp")   # the spot wave is modelled
+    assert fit.errors_method == "mcmc"   # the degenerate valley is sampled, not read off the covariance
+    r1_true = s["radius_sum"] / (1 + s["radius_ratio"])
+    for name, true in (("frac_radius_primary", r1_true), ("frac_radius_secondary", s["radius_sum"] - r1_true)):
+        # the issue's criterion: within 3 sigma and 3%
+        assert abs(fit.values[name] - true) < 3 * fit.uncertainties[name], name
+        assert abs(fit.values[name] / true - 1) < 0.03, name

@@ -10,8 +10,9 @@ central-difference Jacobian.
 
 from __future__ import annotations
 
+import copy
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Mapping, Sequence
 
 import lmfit
@@ -27,7 +28,8 @@ from .problem import Problem, build_problem, window_mask
 from .settings import FitSettings
 from .start import ranked_starts
 
-__all__ = ["LeastSquaresSolution", "solve", "run_least_squares", "central_jacobian", "chi_square"]
+__all__ = ["LeastSquaresSolution", "solve", "run_least_squares", "held_least_squares", "partial_eclipses",
+           "central_jacobian", "chi_square"]
 
 _LINALG_ERRORS = (ValueError, ArithmeticError, np.linalg.LinAlgError)
 
@@ -101,6 +103,31 @@ def run_least_squares(problem: Any, values: Mapping[str, float], flux: np.ndarra
     newv = dict(values)
     newv.update(problem.mapping.physical(res.params.valuesdict()))
     return res, newv
+
+
+def held_least_squares(problem: Problem, values: Mapping[str, float], name: str, value: float,
+                       max_nfev: int | None = None) -> tuple[Any, dict[str, float]]:
+    """:func:`run_least_squares` with parameter ``name`` held at ``value`` (a profile point)."""
+    pm = problem.mapping
+    keep = [i for i, n in enumerate(pm.free) if n != name]
+    held = copy.copy(problem)
+    held.mapping = replace(pm, free=[pm.free[i] for i in keep], fixed={**pm.fixed, name: value},
+                           limits=[pm.limits[i] for i in keep])
+    return run_least_squares(held, {**values, name: value}, max_nfev=max_nfev)
+
+
+def partial_eclipses(v: Mapping[str, float]) -> bool:
+    """Whether both eclipses at physical values ``v`` are partial (neither total nor annular).
+
+    The projected separation at conjunction, in units of a, is r cos i with
+    r = (1 - e^2) / (1 +- e sin w) (textbook Keplerian geometry, e.g. Hilditch 2001, ch. 2);
+    an eclipse is total or annular when it is below |r1 - r2|.
+    """
+    k, rs = v["radius_ratio"], v["radius_sum"]
+    r1 = rs / (1 + k)
+    e2 = v["ecosw"] ** 2 + v["esinw"] ** 2
+    cos_i = math.cos(math.radians(v["inclination"]))
+    return all((1 - e2) / (1 + sign * v["esinw"]) * cos_i > abs(r1 - k * r1) for sign in (1, -1))
 
 
 def central_jacobian(residual_from: Callable[[Mapping[str, float]], np.ndarray], internal_names: Sequence[str],
@@ -252,7 +279,42 @@ class _Driver:
         if best is None:
             raise FitError(f"least-squares fit of the eclipses failed from all {tried} start(s); "
                            f"last error: {last_error}")
+        if best[2] and partial_eclipses(best[1]) and "radius_ratio" in self.mapping.free:
+            best = self.walk_valley(pr, best)
         return best[0], best[1], best[3]
+
+    def walk_valley(self, pr: Problem, best: tuple) -> tuple:
+        """Partial eclipses: look for a deeper minimum along the radius-ratio valley.
+
+        Partial eclipses fix r1 + r2, i and k only in combination (a long, curved valley of
+        chi-square that can hold more than one minimum).  A start that merely moves k is
+        pulled back into the basin it came from, so each trial follows the valley: k held
+        at 0.8x and 1.25x its value while the rest adjust (a short fit); only when that
+        already beats the best chi-square is everything released from there.  The lowest
+        chi-square wins.
+        """
+        v0 = best[1]
+        lo, hi = bounds("radius_ratio", self.settings.ld_law)
+        for factor in (0.8, 1.25):
+            k = float(np.clip(v0["radius_ratio"] * factor, lo * 1.01, hi * 0.99))
+            where = {"radius_sum": v0["radius_sum"], "radius_ratio": k, "inclination": v0["inclination"]}
+            try:
+                held, vk = held_least_squares(pr, v0, "radius_ratio", k, max_nfev=5 * len(self.mapping.free))
+                if not chi_square(held) < chi_square(best[0]):
+                    self.diag["attempts"].append({"start": where, "chi2": chi_square(held), "ok": False,
+                                                  "note": f"valley trial (k held at {factor:g}x): no lower"})
+                    continue
+                res, v1 = run_least_squares(pr, vk)
+            except _LINALG_ERRORS as exc:
+                self.diag["attempts"].append({"start": where, "chi2": float("nan"), "ok": False,
+                                              "note": f"valley trial failed: {exc}"})
+                continue
+            ok, why = self.good_enough(res, pr)
+            self.diag["attempts"].append({"start": where, "chi2": chi_square(res), "ok": ok,
+                                          "note": f"valley trial (k held at {factor:g}x, then freed): {why}"})
+            if ok and chi_square(res) < chi_square(best[0]):
+                best = (res, v1, ok, why)
+        return best
 
     def perturbed(self, v1: Mapping[str, float]) -> list[dict[str, float]]:
         """Restarts around a first result: k x 0.8 and x 1.25, i halfway to 90 deg, r1 + r2 x 0.9."""

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import copy
 import dataclasses
 import time as _time
 import warnings
@@ -17,7 +16,7 @@ from ..errors import EclipsekitWarning, FitError, InputError
 from ..summary import format_value
 from .checks import limb_darkening_shift, limb_darkening_warning, validity_warnings
 from .derived import add_derived_samples, add_derived_values, summarise_samples
-from .driver import LeastSquaresSolution, run_least_squares, solve
+from .driver import LeastSquaresSolution, held_least_squares, run_least_squares, solve
 from .problem import window_mask
 from .initial import InitialParameters, initial_parameters
 from .parameters import DERIVED, ld_coefficients, parameter_names, unit
@@ -234,12 +233,8 @@ def estimate_uncertainties(sol: LeastSquaresSolution, settings: FitSettings, rng
 def profile_point(sol: LeastSquaresSolution, name: str, value: float) -> tuple[np.ndarray, float] | None:
     """Least squares of the windowed problem with ``name`` held at ``value``: (fitted vector, chi-square rise)."""
     pr, pm = sol.problem, sol.problem.mapping
-    held = copy.copy(pr)
-    keep = [i for i, n in enumerate(pm.free) if n != name]
-    held.mapping = dataclasses.replace(pm, free=[pm.free[i] for i in keep], fixed={**pm.fixed, name: value},
-                                       limits=[pm.limits[i] for i in keep])
     try:
-        res, v = run_least_squares(held, {**sol.best, name: value}, max_nfev=100 * (len(keep) + 1))
+        res, v = held_least_squares(pr, sol.best, name, value, max_nfev=100 * len(pm.free))
     except (ValueError, ArithmeticError, np.linalg.LinAlgError):
         return None
     chi2_best = float(np.sum(pr.residual_from(dict(zip(pm.internal, sol.x_best))) ** 2))
