@@ -472,3 +472,22 @@ def test_warns_when_fixed_limb_darkening_is_wrong():
     assert any("limb darkening is held fixed" in w for w in fit.warnings)
     assert fit.status in ("caution", "poor_fit")  # biased (and here so wrong the eclipses fit poorly): not ok
     assert fit.diagnostics["limb_darkening_check"]["delta_chi2"] > 13.8
+
+
+def test_default_supersample_follows_the_exposure_and_the_eclipses():
+    # Regression of the default (a consistency test of our own rule): one instant per 2 minutes of
+    # exposure, at most 7 (7 Gauss-Legendre nodes match scipy's quad time average to 1e-6:
+    # test_eclipse.test_exposure_smearing_matches_time_average), 15 when an exposure exceeds a third
+    # of an eclipse, and never a change to a number the user gave.
+    from eclipsekit.fit.settings import make_settings, supersample_for_durations
+
+    t = np.arange(0.0, 10.0, 30 / 1440)
+    long_cadence = LightCurve(t, np.ones_like(t), np.full(t.size, 1e-3), meta={"exposure_time": 30 / 1440})
+    s = make_settings(long_cadence)
+    assert s.supersample == 7
+    assert supersample_for_durations(s, (0.3, 0.25)).supersample == 7          # 30 min < 6 h / 3
+    assert supersample_for_durations(s, (0.05, 0.0)).supersample == 15         # 30 min > 72 min / 3
+    given = make_settings(long_cadence, supersample=3)
+    assert supersample_for_durations(given, (0.05, 0.0)).supersample == 3
+    short = LightCurve(t, np.ones_like(t), np.full(t.size, 1e-3), meta={"exposure_time": 2 / 1440})
+    assert make_settings(short).supersample == 1

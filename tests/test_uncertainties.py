@@ -71,3 +71,40 @@ def test_sampler_refusal_is_a_fit_error(monkeypatch):
     t, f, e = light_curve_arrays("partial", 1, n_orbits=2)
     with pytest.raises(FitError, match="MCMC could not sample"):
         ek.fit_eclipses(ek.LightCurve(t, f, e), errors="mcmc", progress=False, check_third_light=False)
+
+
+class _ChainPrefix:
+    """The first ``steps`` steps of a finished emcee chain, as a sampler that has run that far."""
+
+    def __init__(self, sampler, steps):
+        self.sampler, self.steps = sampler, steps
+
+    def get_chain(self, discard=0, **kw):
+        return self.sampler.get_chain(**kw)[discard:self.steps]
+
+
+def test_converging_chain_stops_at_thirty_autocorrelation_times():
+    # An AR(1)-like target for emcee: a correlated 2-D Gaussian.  The rule stops a chain once it spans
+    # N_TAU = 30 autocorrelation times after a 3-tau burn-in, tau (emcee.autocorr.integrated_time, the
+    # reference estimator) stable to 5% between checks; never earlier than MIN_STEPS.
+    import emcee
+
+    from eclipsekit.fit.uncertainties.mcmc import CHECK_EVERY, MIN_STEPS, N_TAU, long_enough
+
+    icov = np.linalg.inv([[1.0, 0.9], [0.9, 1.0]])
+    sampler = emcee.EnsembleSampler(16, 2, lambda x: -0.5 * x @ icov @ x)
+    sampler.random_state = np.random.RandomState(4).get_state()
+    sampler.run_mcmc(np.random.default_rng(4).normal(size=(16, 2)), 4000, progress=False)
+    tau_before, stopped_at = np.nan, None
+    for steps in range(CHECK_EVERY, 4001, CHECK_EVERY):
+        if steps < MIN_STEPS:
+            continue
+        stop, tau = long_enough(_ChainPrefix(sampler, steps), steps, 2, tau_before)
+        if stop:
+            stopped_at = steps
+            break
+        tau_before = tau
+    assert stopped_at is not None
+    tau = np.max(emcee.autocorr.integrated_time(sampler.get_chain()[stopped_at // 10:stopped_at], quiet=True))
+    assert stopped_at - 3 * tau >= 0.9 * N_TAU * tau      # long enough by the reference's own tau (10% leeway)
+    assert stopped_at - CHECK_EVERY - 3 * tau < 1.2 * N_TAU * tau   # and not much longer than needed

@@ -95,7 +95,9 @@ def fit_eclipses(
         cyclic shifts of the residuals, each refitted; Bouma et al. 2009, AJ 137, 4691,
         sect. 4.2; Southworth 2008, MNRAS 386, 1644), which includes correlated noise.
         "auto" (default) uses the covariance when it can be trusted and otherwise an
-        MCMC (its full ``mcmc_steps``, so that a seed repeats it exactly); the reasons are
+        MCMC that stops once its chain spans 30 autocorrelation times after burn-in, with
+        the time estimate stable to 5% (at most ``mcmc_steps``; a rule of the chain alone,
+        so that a seed repeats it exactly); the reasons are
         in ``diagnostics["errors_reasons"]`` (see
         :func:`eclipsekit.fit.uncertainties.trust.covariance_doubts`).
     fixed : dict, optional
@@ -107,7 +109,8 @@ def fit_eclipses(
     exposure_time : float or Quantity, optional
         Integration time (days); default ``lc.meta["exposure_time"]`` or 0.
     supersample : int, optional
-        Sub-exposures for the model; default one per 2 minutes of exposure.
+        Instants per exposure for the model (Gauss-Legendre nodes); default one per 2 minutes of
+        exposure, at most 7, or at most 15 when an exposure exceeds a third of an eclipse.
     ld_law : {"quadratic", "linear", "power-2", "uniform"}
     ld_primary, ld_secondary : sequence of float, optional
         Limb-darkening coefficients (fixed unless freed); default typical values

@@ -447,6 +447,8 @@ class _Driver:
             message = res.message if isinstance(res.message, str) else str(res.message)
         elif gross:
             message = f"poor fit (reduced chi-square {redchi_fit:.2f} vs {ref:.2f} out of eclipse)"
+        elif not res.success:
+            message = f"the least-squares optimiser stopped before converging ({res.message})"
         else:
             message = why
         return success, message

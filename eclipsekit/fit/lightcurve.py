@@ -21,7 +21,7 @@ from .problem import window_mask
 from .initial import InitialParameters, initial_parameters
 from .parameters import DERIVED, ld_coefficients, parameter_names, unit
 from .result import EclipseFit
-from .settings import FitSettings, make_settings
+from .settings import FitSettings, make_settings, supersample_for_durations
 from .start import estimate_start
 from .uncertainties.trust import covariance_doubts
 from .uncertainties import METHODS, UncertaintyContext, UncertaintyEstimate, UncertaintyMethod
@@ -59,6 +59,7 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     t_start = _time.perf_counter()
     rng = np.random.default_rng(settings.seed)
     initial = initial_parameters(lc, start_values(lc, start, settings), settings)
+    settings = supersample_for_durations(settings, initial.durations)
     sol = solve(lc, initial, settings)
     sol, settings = resolve_baseline(lc, initial, sol, settings)
     settings = choose_errors(sol, settings)
@@ -191,10 +192,11 @@ def baseline_notes(sol: LeastSquaresSolution, settings: FitSettings) -> list[str
 def choose_errors(sol: LeastSquaresSolution, settings: FitSettings) -> FitSettings:
     """Resolve ``errors="auto"``: the covariance when it can be trusted, else an MCMC.
 
-    The MCMC runs its full number of steps unless the user gave ``mcmc_seconds``: a wall-clock
-    budget would make the steps run, and so the numbers, depend on the machine's load, and the
-    same input and seed must give the same result (32 x 2,000 steps on 20,000 points take ~35 s
-    on two cores: scripts/bench_fit.py).
+    The MCMC stops once its chain is long enough by its own autocorrelation time (at most
+    ``mcmc_steps``; :func:`~eclipsekit.fit.uncertainties.mcmc.long_enough`), or at
+    ``mcmc_seconds`` when the user gave one.  Both the stopping rule and the steps are
+    functions of the chain alone, so the same input and seed give the same result on any
+    machine and under any load (a wall-clock budget would not).
 
     The reasons (see :func:`~eclipsekit.fit.uncertainties.trust.covariance_doubts`) go to
     ``diagnostics["errors_reasons"]``.
@@ -206,20 +208,24 @@ def choose_errors(sol: LeastSquaresSolution, settings: FitSettings) -> FitSettin
         pm.free, sol.x_best, sol.covariance, pm.lower, pm.upper,
         lambda x: float(np.sum(pr.residual_from(dict(zip(pm.internal, x))) ** 2)), sol.redchi_fit, sol.best)
     sol.diagnostics["errors_reasons"] = doubts
-    if not doubts or sol.covariance is None:
+    if not doubts:
         return dataclasses.replace(settings, errors="covariance")
-    return dataclasses.replace(settings, errors="mcmc", mcmc_profile=True)
+    # doubts include a missing covariance (a singular Jacobian): the MCMC then starts its walkers along the
+    # radius-ratio profile, or in a tiny ball about the best fit
+    return dataclasses.replace(settings, errors="mcmc", mcmc_profile=True, mcmc_until_converged=True)
 
 
 def estimate_uncertainties(sol: LeastSquaresSolution, settings: FitSettings, rng: np.random.Generator
                            ) -> tuple[UncertaintyEstimate, UncertaintyMethod, UncertaintyMethod]:
-    """Run the ``errors=`` plug-in; the covariance one when there is no covariance matrix to start from.
+    """Run the ``errors=`` plug-in; the covariance one when there is no covariance matrix to start
+    from, except for an MCMC whose walkers start along the radius-ratio profile.
 
     Returns the estimate, the plug-in that made it and the one requested (whose summary
     rules apply: with no covariance the draws are all the best fit, summarised as asked).
     """
     method = METHODS[settings.errors]
-    runner = method if sol.covariance is not None else METHODS["covariance"]
+    from_profile = settings.errors == "mcmc" and settings.mcmc_profile and "radius_ratio" in sol.problem.mapping.free
+    runner = method if sol.covariance is not None or from_profile else METHODS["covariance"]
     pr = sol.problem
     ctx = UncertaintyContext(
         problem=pr, mapping=pr.mapping, best=sol.best, x_best=sol.x_best, covariance=sol.covariance,
