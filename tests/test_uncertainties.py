@@ -108,3 +108,23 @@ def test_converging_chain_stops_at_thirty_autocorrelation_times():
     tau = np.max(emcee.autocorr.integrated_time(sampler.get_chain()[stopped_at // 10:stopped_at], quiet=True))
     assert stopped_at - 3 * tau >= 0.9 * N_TAU * tau      # long enough by the reference's own tau (10% leeway)
     assert stopped_at - CHECK_EVERY - 3 * tau < 1.2 * N_TAU * tau   # and not much longer than needed
+
+
+def test_autocorrelation_ignores_walkers_that_never_moved():
+    # Regression: a stuck walker (constant chain) made emcee's integrated_time divide 0 by 0, a numpy
+    # "invalid value" warning and a NaN tau.  The moving walkers' tau is emcee's own on them alone.
+    import warnings
+
+    import emcee
+
+    from eclipsekit.fit.uncertainties.mcmc import _autocorr
+
+    rng = np.random.default_rng(2)
+    chain = np.cumsum(rng.normal(size=(400, 6, 2)), axis=0) * 0.05 + rng.normal(size=(400, 6, 2))
+    chain[:, 3, :] = 0.7                           # walker 3 never moved
+    sampler = SimpleNamespace(get_chain=lambda discard=0: chain[discard:])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        tau = _autocorr(sampler, 0, 2)
+    moving = np.delete(chain, 3, axis=1)
+    np.testing.assert_allclose(tau, emcee.autocorr.integrated_time(moving, quiet=True), rtol=1e-12)

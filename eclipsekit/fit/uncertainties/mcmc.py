@@ -205,7 +205,10 @@ def _autocorr(sampler: Any, discard: int, nvar: int) -> np.ndarray:
     import emcee
 
     ch = sampler.get_chain(discard=discard)  # (steps - discard, walkers, nvar)
-    if ch.shape[0] < 2:
+    # a walker that never moved has a zero autocovariance, which emcee divides by (NaN and a numpy warning
+    # for the whole parameter): leave such walkers out (the acceptance fraction reports them)
+    ch = ch[:, np.all(np.ptp(ch, axis=0) > 0, axis=1), :]
+    if ch.shape[0] < 2 or ch.shape[1] == 0:
         return np.full(nvar, np.nan)
     emcee_log = logging.getLogger("emcee")
     level = emcee_log.level
