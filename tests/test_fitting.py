@@ -104,14 +104,34 @@ def test_brute_force_reference_limb_darkened_central_depth():
 # --------------------------------------------------------------------------------------
 # Start values
 # --------------------------------------------------------------------------------------
+def _first_order_ecosw_error(s):
+    """(pi/2)(phase_II - 0.5) - e cos w, with the secondary's phase from Kepler's equation (i = 90 deg).
+
+    Conjunctions at true anomalies 90 deg - w and 270 deg - w (tests/_brute_force.py conventions);
+    mean anomaly M = E - e sin E, tan(E/2) = sqrt((1 - e)/(1 + e)) tan(nu/2) (textbook Keplerian orbit,
+    e.g. Hilditch 2001, ch. 2; from memory).
+    """
+    e, w = s["eccentricity"], np.radians(s["omega"])
+
+    def mean_anomaly(nu):
+        E = 2 * np.arctan(np.sqrt((1 - e) / (1 + e)) * np.tan(nu / 2))
+        return E - e * np.sin(E)
+
+    phase = ((mean_anomaly(1.5 * np.pi - w) - mean_anomaly(0.5 * np.pi - w)) / (2 * np.pi)) % 1.0
+    return abs(0.5 * np.pi * (phase - 0.5) - e * np.cos(w))
+
+
 @pytest.mark.parametrize("name", ["eccentric", "total"])
 def test_start_values_land_near_truth(name):
     sys_ = ECCENTRIC if name == "eccentric" else TOTAL
     t, f = _clean_curve(name)
     st = estimate_start(_measured_start(t, f, sys_["period"], sys_["t0"]))
     ec, es = _ecosw_esinw(sys_)
-    # first-order relations (Kopal 1959): ecosw from the secondary's phase to ~e^2 and cot^2 i terms
-    assert st["ecosw"] == pytest.approx(ec, abs=0.005)
+    # first-order relation (Kopal 1959): ecosw = (pi/2)(phase_II - 0.5).  Tolerance from the method: its
+    # truncation error for this orbit (exact phase from Kepler's equation, below), the mid-eclipse phase
+    # read to one cadence, and the e cot^2 i term of the conjunction times (Sterne 1939; from memory)
+    assert st["ecosw"] == pytest.approx(ec, abs=_first_order_ecosw_error(sys_) + 0.5 * np.pi * CADENCE
+                                        / sys_["period"] + sys_["eccentricity"] / np.tan(np.radians(sys_["inclination"])) ** 2)
     # esinw from the duration ratio: first order in e, plus the impact-parameter difference of the eclipses
     assert st["esinw"] == pytest.approx(es, abs=0.06)
     assert st["eccentric"] == (name == "eccentric")
