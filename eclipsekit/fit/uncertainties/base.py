@@ -30,6 +30,8 @@ class UncertaintyOptions(Protocol):
     mcmc_steps: int
     mcmc_burn: int | None
     mcmc_thin: int | None
+    mcmc_seconds: float | None
+    mcmc_until_converged: bool
     n_shifts: int | None
     progress: bool
     seed: int | None

@@ -19,7 +19,7 @@ import numpy as np
 
 from .base import UncertaintyContext, UncertaintyEstimate
 
-__all__ = ["McmcMethod"]
+__all__ = ["McmcMethod", "long_enough"]
 
 
 class McmcMethod:
@@ -73,13 +73,12 @@ def _run(pr: Any, pos: np.ndarray, st: Any) -> tuple[Any, int, str]:
     from ..._progress import show_progress
 
     progress = show_progress(st.progress)
-    until_converged = getattr(st, "mcmc_until_converged", False)
     tau_before = np.nan
     for _ in sampler.sample(pos, iterations=int(st.mcmc_steps), progress=progress):
         steps += 1
         if t_end is not None and steps % 10 == 0 and _time.perf_counter() > t_end and steps >= 100:
             return sampler, steps, "time budget"
-        if until_converged and steps % CHECK_EVERY == 0 and steps >= MIN_STEPS:
+        if st.mcmc_until_converged and steps % CHECK_EVERY == 0 and steps >= MIN_STEPS:
             stop, tau_before = long_enough(sampler, steps, pos.shape[1], tau_before)
             if stop:
                 return sampler, steps, "converged"
