@@ -30,8 +30,8 @@ from __future__ import annotations
 import argparse
 import collections
 import concurrent.futures
-import functools
 import dataclasses
+import functools
 import json
 import os
 import re
