@@ -186,7 +186,11 @@ def test_interrupted_run_resumes_without_recomputing(inputs, tmp_path):
                                                        os.environ.get("PYTHONPATH", "")]))
     command = [sys.executable, "-m", "eclipsekit.cli", "survey", *files, "--out", str(out), "--stages", "search",
                "--workers", "1", "--quiet"]
-    proc = subprocess.Popen(command, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    # SIGINT's default action in the child, whatever the test runner inherited: a runner started in the
+    # background by a non-interactive shell ignores SIGINT, and an ignored signal stays ignored across exec
+    # (POSIX), so the survey would never see it (this made CI rehearsals under `nohup ... &` fail)
+    proc = subprocess.Popen(command, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     deadline = time.monotonic() + 90
     while not catalogue.read_journal(out) and time.monotonic() < deadline and proc.poll() is None:
         time.sleep(0.1)
