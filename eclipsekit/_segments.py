@@ -135,11 +135,11 @@ def segmented_bls(t, y, dy, pmin: float, pmax: float, baseline: float, oversampl
         bands.append((sl, p_lo, p_hi, seg))
         n_seg = int(round(baseline / seg))
         index = np.minimum((t / seg).astype(int), n_seg - 1)
+        durations = trial_durations(p_lo, p_hi)
         for j in range(n_seg):
             sel = index == j
             if sel.sum() < MIN_SEGMENT_POINTS:
                 continue
-            durations = trial_durations(p_lo, p_hi)
             binned = [bin_in_time(t[sel], y[sel], dy[sel], float(d) / bins_per_eclipse) for d in durations]
             for g in duration_groups(durations, [b[0].size for b in binned], p_hi, oversample):
                 tb, yb, eb = binned[g.start]

@@ -129,11 +129,9 @@ def collect_targets(inputs: Sequence[str | os.PathLike], out: str | os.PathLike 
     InputError
         A listing table with an unreadable cell (named by row and column).
     """
-    if isinstance(inputs, (str, os.PathLike)):
-        inputs = [inputs]
     skip = Path(out).resolve() if out is not None else None
     targets: dict[str, Target] = {}
-    for given in inputs:
+    for given in _as_list(inputs):
         path = Path(given)
         if path.is_dir():
             found = [Target(str(path / p.relative_to(path)), str(p.resolve())) for p in _light_curves_in(path, skip)]
