@@ -134,8 +134,9 @@ class PeriodSearch:
     duration_primary, duration_secondary : float
         Eclipse durations, first to last contact of the fitted trapezoid (days);
         ``duration_secondary`` is NaN without a secondary.
-    phase_secondary : float
-        Phase of mid-secondary eclipse in [0, 1) (NaN without a secondary).
+    phase_secondary, phase_secondary_err : float
+        Phase of mid-secondary eclipse in [0, 1) and its 1σ uncertainty (NaN without a
+        secondary; from the trapezoid fit, or one step of the box scan when that fit fails).
     significance : float
         Signal detection efficiency of the periodogram peak (``SDE``), compare with
         ``sde_threshold``.
@@ -173,6 +174,7 @@ class PeriodSearch:
     pdm_theta: np.ndarray
     depth_primary_err: float = math.nan
     depth_secondary_err: float = math.nan
+    phase_secondary_err: float = math.nan
     secondary_detected: bool = False
     secondary_snr: float = math.nan
     odd_even_sigma: float = math.nan
@@ -230,7 +232,8 @@ class PeriodSearch:
             if self.secondary_detected:
                 lines.append(
                     f"  secondary         depth {format_value(self.depth_secondary, self.depth_secondary_err)}, "
-                    f"duration {format_value(self.duration_secondary)} d, phase {format_value(self.phase_secondary)}, "
+                    f"duration {format_value(self.duration_secondary)} d, "
+                    f"phase {format_value(self.phase_secondary, self.phase_secondary_err)}, "
                     f"{self.n_eclipses_secondary} eclipses observed")
             else:
                 lines.append("  secondary         not detected")
@@ -267,7 +270,7 @@ class PeriodSearch:
             "depth_secondary": q(self.depth_secondary, self.depth_secondary_err, ""),
             "duration_primary": q(self.duration_primary, None, "d"),
             "duration_secondary": q(self.duration_secondary, None, "d"),
-            "phase_secondary": q(self.phase_secondary, None, ""),
+            "phase_secondary": q(self.phase_secondary, self.phase_secondary_err, ""),
             "secondary_detected": bool(self.secondary_detected),
             "secondary_snr": num(self.secondary_snr),
             "odd_even_sigma": num(self.odd_even_sigma),
@@ -1468,8 +1471,9 @@ def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str], 
         d1, d1e, D1 = fit["depth1"], fit["depth1_err"], fit["duration1"]
         if ev["secondary"]:
             d2, d2e, D2, ph2 = fit["depth2"], fit["depth2_err"], fit["duration2"], fit["phase2"] % 1.0
+            ph2e = fit["phase2_err"]
         else:
-            d2, d2e, D2, ph2 = 0.0, math.nan, math.nan, math.nan
+            d2, d2e, D2, ph2, ph2e = 0.0, math.nan, math.nan, math.nan, math.nan
         reasons.append(f"refined by a trapezoid fit (reduced χ² {fit['redchi']:.2f})")
     else:
         P = ev["period"]
@@ -1477,14 +1481,16 @@ def _refine_ephemeris(s: _Setup, ev: dict, in1: np.ndarray, reasons: list[str], 
         T0, T0err = ev["t0"], ev["duration"] / 4
         d1, d1e, D1 = ev["depth1"], ev["depth1_err"], ev["duration"]
         d2, d2e, D2 = ev["depth2"], ev["depth2_err"], ev["width2"]
-        ph2 = ev["phase2"]
+        # one step of the secondary's box scan (a quarter of its narrowest box, see _secondary_scan)
+        ph2, ph2e = ev["phase2"], (ev["duration"] / P / 8 if ev["secondary"] else math.nan)
         if trapezoids:
             reasons.append("trapezoid fit failed: values from the box search, errors from the grid step")
             warnings.warn("trapezoid refinement did not converge; period and t0 errors are grid-based",
                           EclipsekitWarning)
     return dict(period=float(P), period_err=float(Perr), t0=float(T0 + s.t_ref), t0_err=float(T0err),
                 depth_primary=float(d1), depth_secondary=float(d2), duration_primary=float(D1),
-                duration_secondary=float(D2), phase_secondary=float(ph2), depth_primary_err=float(d1e),
+                duration_secondary=float(D2), phase_secondary=float(ph2), phase_secondary_err=float(ph2e),
+                depth_primary_err=float(d1e),
                 depth_secondary_err=float(d2e))
 
 

@@ -39,6 +39,8 @@ from pathlib import Path
 
 import numpy as np
 
+#: CPU seconds above which a finished input is listed as slow in the report (it is not a crash).
+SLOW_CPU = 30.0
 #: Trial periods a fuzzed search may have (keeps each search well under a second).
 GRID_BUDGET = 5_000
 #: Options of the fit: the limb-darkening plausibility check is skipped, the fit
@@ -283,9 +285,11 @@ def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0, ki
         if index == kill_on:
             os.kill(os.getpid(), signal.SIGSEGV)
         signal.setitimer(signal.ITIMER_VIRTUAL, cpu_limit)
+        cpu = time.process_time()
         outcome, detail, options = run_case(path, case["period"], fit)
+        cpu = time.process_time() - cpu
         signal.setitimer(signal.ITIMER_VIRTUAL, 0.0)
-        print(json.dumps({"done": index, "outcome": outcome, "detail": detail,
+        print(json.dumps({"done": index, "outcome": outcome, "detail": detail, "cpu": round(cpu, 3),
                           "options": {k: v for k, v in options.items() if k != "traceback"},
                           "traceback": options.get("traceback", "")}), flush=True)
 
@@ -393,6 +397,12 @@ def report(results: list[dict]) -> str:
     lines = [f"{len(results)} inputs: {outcomes.get('success', 0)} success, {outcomes.get('refused', 0)} refused "
              f"({', '.join(f'{k} {v}' for k, v in refused.most_common())}), {outcomes.get('crash', 0)} crashes"]
     lines += [f"  crash: {count} x {kind}" for kind, count in crashes.most_common()]
+    cpu = np.array([r["cpu"] for r in results if "cpu" in r])
+    if cpu.size:
+        slow = sorted(r["index"] for r in results if r.get("cpu", 0.0) > SLOW_CPU)
+        lines.append(f"CPU per finished input: median {np.median(cpu):.2f} s, 99th percentile "
+                     f"{np.percentile(cpu, 99):.1f} s, max {cpu.max():.1f} s; {len(slow)} over {SLOW_CPU:g} s"
+                     + (f" (cases {', '.join(map(str, slow[:20]))}{', ...' if len(slow) > 20 else ''})" if slow else ""))
     return "\n".join(lines)
 
 
@@ -401,8 +411,10 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--n", type=int, default=10_000, help="number of inputs (default 10000)")
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument("--workers", type=int, default=2, help="parallel worker processes (default 2)")
-    parser.add_argument("--timeout", type=float, default=30.0,
-                        help="seconds of CPU time per input before it counts as a hang (default 30)")
+    parser.add_argument("--timeout", type=float, default=120.0,
+                        help="seconds of CPU time per input before it counts as a hang (default 120)")
+    parser.add_argument("--report", action="store_true",
+                        help="only report every outcome recorded in OUT/results.jsonl (all runs and resumptions)")
     parser.add_argument("--out", type=Path, default=Path("fuzz_out"), help="folder for reproducers")
     parser.add_argument("--start", type=int, default=0, help="first input (to continue a run)")
     parser.add_argument("--no-fit", action="store_true", help="stop after the period search (quick)")
@@ -424,6 +436,11 @@ def main(argv: list[str] | None = None) -> int:
         print(outcome, detail, {k: v for k, v in options.items() if k != "traceback"})
         print(options.get("traceback", ""))
         return 0
+    if args.report:
+        with open(args.out / "results.jsonl") as fh:
+            recorded = {(r["seed"], r["index"]): r for r in map(json.loads, fh)}  # a rerun input counts once
+        print(report(list(recorded.values())))
+        return 1 if any(r["outcome"] == "crash" for r in recorded.values()) else 0
     clock = time.perf_counter()
     results = run(args.n, args.seed, args.workers, args.out, args.timeout, fit=not args.no_fit, start=args.start)
     print(report(results))

@@ -417,6 +417,33 @@ def test_fit_error_names_what_failed(monkeypatch):
         fit_eclipses(lc, start, progress=False)
 
 
+def test_evaluation_budget_ends_a_fit_that_does_not_settle(monkeypatch):
+    # regression test of the budget of model evaluations (fuzzed light curves with no eclipse at the period
+    # tried ran for minutes): shrunk to 3 per parameter, the fit stops with a FitError saying why, and its
+    # least-squares runs together used no more than the budget (lmfit may overrun a cap by one call)
+    import re
+
+    import lmfit
+
+    from eclipsekit.fit import driver
+
+    lc, start = _small_total_lc()
+    used = []
+    original = lmfit.Minimizer.least_squares
+
+    def counted(self, *args, **kwargs):
+        res = original(self, *args, **kwargs)
+        used.append(res.nfev)
+        return res
+
+    monkeypatch.setattr(lmfit.Minimizer, "least_squares", counted)
+    monkeypatch.setattr(driver, "EVALUATIONS_PER_PARAMETER", 3)
+    with pytest.raises(FitError, match=r"did not settle within \d+ model evaluations") as info:
+        fit_eclipses(lc, start, progress=False)
+    budget = int(re.search(r"within (\d+) model", str(info.value)).group(1))
+    assert used and sum(used) <= budget + len(used)
+
+
 def _ellipsoidal_like():
     """The total system with ellipsoidal-like variation (cos 4 pi phase, 5 ppt): light curve and start."""
     t_all, f_all = _clean_curve("total")

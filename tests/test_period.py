@@ -200,6 +200,8 @@ def test_bin_in_time_keeps_weighted_means():
 # eclipsing binaries
 # ------------------------------------------------------------------------------------
 def test_unequal_eclipses_model():
+    # Data shaped by the package's model_flux, which the search never calls: the injected period
+    # and epoch are the outside truth here (the model is checked on its own in test_eclipse.py)
     # (a) unequal eclipses, package model; secondary of a circular orbit at phase 0.5
     rng = np.random.default_rng(21)
     t = _uniform_times(rng, 3000, 20)
@@ -209,14 +211,17 @@ def test_unequal_eclipses_model():
     _assert_period(res, p, t0)
     assert res.secondary_detected
     assert res.depth_primary > res.depth_secondary > 0
-    assert abs(res.phase_secondary - 0.5) < 0.01  # circular orbit: exactly 0.5 (common practice)
+    # circular orbit: exactly 0.5 (common practice); within 3 of the stated sigma (99.7% for Gaussian errors)
+    assert abs(res.phase_secondary - 0.5) < 3 * res.phase_secondary_err
     assert "secondary eclipse at phase" in res.reasoning
 
 
 @pytest.mark.parametrize("generator", ["model", "trapezoid"])
 def test_equal_twin_eclipses_do_not_give_half_period(generator):
     # (b) identical stars on a circular orbit: both eclipses equal, at phases 0 and 0.5.
-    # The fold at P/2 puts them on top of each other; the period must still be P.
+    # The fold at P/2 puts them on top of each other; the period must still be P.  The "model" case
+    # shapes the dips with the package's model_flux, which the search never calls: the injected
+    # period is the outside truth (the "trapezoid" case is independent of the package altogether)
     rng = np.random.default_rng(22)
     t = _uniform_times(rng, 3000, 25)
     p, t0 = 3.1, 1.1
@@ -260,6 +265,8 @@ def test_eccentric_orbit_secondary_at_062():
 
 
 def test_nightly_sampling_period_near_one_day_not_aliased():
+    # Data shaped by the package's model_flux, which the search never calls: the injected period
+    # and epoch are the outside truth here (the model is checked on its own in test_eclipse.py)
     # (d) ground-based: 100 nights of 7 h, P near 1 d.  Daily sampling makes |1/P ± n| aliases
     # (common practice); the period must not be one of them.
     rng = np.random.default_rng(24)
@@ -276,6 +283,8 @@ def test_nightly_sampling_period_near_one_day_not_aliased():
 
 
 def test_long_period_three_eclipses():
+    # Data shaped by the package's model_flux, which the search never calls: the injected period
+    # and epoch are the outside truth here (the model is checked on its own in test_eclipse.py)
     # (e) P = 9 d over 24 d: three primary eclipses (t = 2, 11, 20), a faint secondary
     rng = np.random.default_rng(25)
     t = _uniform_times(rng, 2500, 24)
@@ -466,7 +475,11 @@ def test_spotted_short_period_binary_is_found(seed):
     truth = LONG_SYSTEMS["spotted-short"]
     # true period within 3 of the stated sigma (99.7% for Gaussian errors)
     assert abs(res.period - truth["period"]) < 3 * res.period_err
-    assert res.secondary_detected and abs(res.phase_secondary - 0.5) < 0.01  # circular orbit (common practice)
+    # circular orbit: exactly 0.5 (common practice).  Regression bound, not a measurement check: the
+    # trapezoid fit ignores the spot wave, whose slope across the eclipse moves the fitted centre by
+    # 5-7 of its stated sigma on these seeds; a twentieth of the primary's phase width keeps the
+    # secondary inside its own eclipse rather than on a spot feature
+    assert res.secondary_detected and abs(res.phase_secondary - 0.5) < res.duration_primary / res.period / 20
     assert "eclipse-shaped" in res.reasoning
 
 
@@ -723,7 +736,7 @@ def test_given_period_alone_measures_t0():
     n = round((res.t0 - g["t0"]) / g["period"])
     assert res.t0_err > 0 and abs(res.t0 - g["t0"] - n * g["period"]) < 3 * res.t0_err
     assert res.period == g["period"]
-    assert abs(res.phase_secondary - g["phase2"]) < 0.01  # box-scan step (width / 8), see _secondary_scan
+    assert abs(res.phase_secondary - g["phase2"]) < 3 * res.phase_secondary_err  # 99.7% for Gaussian errors
 
 
 @pytest.mark.parametrize("case, words", [

@@ -10,10 +10,12 @@ central-difference Jacobian.
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import copy
 import math
 from dataclasses import dataclass, field, replace
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any, Callable, Iterator, Mapping, Sequence
 
 import lmfit
 import numpy as np
@@ -29,9 +31,37 @@ from .settings import FitSettings
 from .start import ranked_starts
 
 __all__ = ["LeastSquaresSolution", "solve", "run_least_squares", "held_least_squares", "partial_eclipses",
-           "central_jacobian", "chi_square"]
+           "central_jacobian", "chi_square", "evaluation_budget", "EVALUATIONS_PER_PARAMETER"]
 
 _LINALG_ERRORS = (ValueError, ArithmeticError, np.linalg.LinAlgError)
+
+#: model evaluations one fit may spend on least squares (its starts, restarts, refinement, baseline
+#: choice and checks; not its uncertainties), per fitted parameter plus one: five runs to the cap of
+#: one.  The test suite's fits need at most ~310 (the fit with a wrong fixed inclination; most need
+#: under 100); light curves with no eclipse at the period tried ran on to 2,500 and a minute of CPU
+EVALUATIONS_PER_PARAMETER = 1000
+
+#: [evaluations left, evaluations given] of the open budget, or None
+_BUDGET: contextvars.ContextVar[list[int] | None] = contextvars.ContextVar("eclipsekit_fit_budget", default=None)
+
+
+@contextlib.contextmanager
+def evaluation_budget(n_parameters: int | None) -> Iterator[None]:
+    """Charge the least squares run inside to one budget of model evaluations.
+
+    ``n_parameters`` None pauses the budget (uncertainties: their refits are bounded by their
+    own settings).  Inside a budget already open, a new one shares it: a check's refit is
+    part of the fit that asked for it.
+    """
+    if n_parameters is not None and _BUDGET.get() is not None:
+        yield
+        return
+    total = EVALUATIONS_PER_PARAMETER * ((n_parameters or 0) + 1)
+    token = _BUDGET.set(None if n_parameters is None else [total, total])
+    try:
+        yield
+    finally:
+        _BUDGET.reset(token)
 
 
 @dataclass
@@ -98,8 +128,18 @@ def run_least_squares(problem: Any, values: Mapping[str, float], flux: np.ndarra
     p = problem.mapping.lmfit_parameters(values)
     mini = lmfit.Minimizer(problem.residual, p, fcn_kws={"flux": flux} if flux is not None else None,
                            nan_policy="propagate")
+    cap = max_nfev or 200 * (len(p) + 1)
+    budget = _BUDGET.get()
+    if budget is not None:
+        if budget[0] <= 0:
+            raise FitError(f"the least-squares fit did not settle within {budget[1]} model evaluations (its starts, "
+                           "restarts and refinements): the light curve shows no eclipse the model can describe "
+                           f"at P = {problem.mapping.p_ref:.6g} d; check the period and t0, or give start values")
+        cap = min(cap, budget[0])
     # lsmr subproblems: no SVD of the tall Jacobian (multithreaded LAPACK on busy machines is slow), same optimum
-    res = mini.least_squares(x_scale="jac", tr_solver="lsmr", max_nfev=max_nfev or 200 * (len(p) + 1))
+    res = mini.least_squares(x_scale="jac", tr_solver="lsmr", max_nfev=cap)
+    if budget is not None:
+        budget[0] -= res.nfev
     newv = dict(values)
     newv.update(problem.mapping.physical(res.params.valuesdict()))
     return res, newv

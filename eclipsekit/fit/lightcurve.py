@@ -16,7 +16,7 @@ from ..errors import EclipsekitWarning, FitError, InputError
 from ..summary import format_value
 from .checks import limb_darkening_shift, limb_darkening_warning, validity_warnings
 from .derived import add_derived_samples, add_derived_values, summarise_samples
-from .driver import LeastSquaresSolution, held_least_squares, run_least_squares, solve
+from .driver import LeastSquaresSolution, evaluation_budget, held_least_squares, run_least_squares, solve
 from .problem import window_mask
 from .initial import InitialParameters, initial_parameters
 from .parameters import DERIVED, ld_coefficients, parameter_names, unit
@@ -59,13 +59,21 @@ def fit_light_curve(lc: LightCurve, start: Any, settings: FitSettings) -> LightC
     t_start = _time.perf_counter()
     rng = np.random.default_rng(settings.seed)
     initial = initial_parameters(lc, start_values(lc, start, settings), settings)
+    with evaluation_budget(len(initial.mapping.free)):
+        return _fit(lc, initial, settings, rng, t_start)
+
+
+def _fit(lc: LightCurve, initial: InitialParameters, settings: FitSettings, rng: np.random.Generator,
+         t_start: float) -> LightCurveSolution:
+    """:func:`fit_light_curve` from its initial parameters, inside the fit's budget of model evaluations."""
     settings = supersample_for_durations(settings, initial.durations)
     sol = solve(lc, initial, settings)
     sol, settings = resolve_baseline(lc, initial, sol, settings)
     settings = choose_errors(sol, settings)
-    estimate, runner, method = estimate_uncertainties(sol, settings, rng)
-    sol.diagnostics.update(estimate.diagnostics)
-    values, unc, samples = derive(sol, settings, estimate, runner, method, rng)
+    with evaluation_budget(None):  # the uncertainties' refits are bounded by their own settings
+        estimate, runner, method = estimate_uncertainties(sol, settings, rng)
+        sol.diagnostics.update(estimate.diagnostics)
+        values, unc, samples = derive(sol, settings, estimate, runner, method, rng)
     warn, status, reasons = run_checks(sol, settings, values, unc, sol.warnings + estimate.warnings)
     fit = _result(sol, initial, settings, values, unc, samples, estimate, warn, _time.perf_counter() - t_start)
     fit = dataclasses.replace(fit, status=status, status_reasons=reasons,
