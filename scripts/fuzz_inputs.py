@@ -10,13 +10,17 @@ signal or a hang is caught and attributed to its input.
 
 An outcome is *success*, an ``EclipsekitError`` subclass (the package refused the input
 with a message: fine), or a *crash*: any other exception, a signal, or a hang past the
-per-input timeout.  Crashes are counted by kind, and each one's input is saved as a
-reproducer (``OUT/crashes/<case>.csv`` with ``<case>.txt`` holding the traceback and the
-options used).
+per-input limit of CPU time (``--timeout``, 120 s).  Crashes are counted by kind, and each
+one's input is saved as a reproducer (``OUT/crashes/<case>.csv`` with ``<case>.txt`` holding
+the traceback and the options used).  The report also gives the CPU time per input and lists
+the inputs that took over 30 s.  The fit's errors come from the covariance, and from the default
+rule (the MCMC when needed) on every tenth input: see :data:`FIT_OPTIONS`.
 
 Usage::
 
     python scripts/fuzz_inputs.py --n 10000 --seed 1 --workers 2 --out fuzz_out
+    python scripts/fuzz_inputs.py --start 4000 --n 10000 --seed 1 --out fuzz_out   # continue a run
+    python scripts/fuzz_inputs.py --report --out fuzz_out      # every outcome recorded there
 
 Case ``i`` of seed ``s`` is the same on every run (``numpy.random.default_rng([s, i])``),
 so ``--only i`` reruns one input in this process with its traceback shown.
@@ -43,10 +47,15 @@ import numpy as np
 SLOW_CPU = 30.0
 #: Trial periods a fuzzed search may have (keeps each search well under a second).
 GRID_BUDGET = 5_000
-#: Options of the fit: the limb-darkening plausibility check is skipped, the fit
-#: windows are used (same model, fewer points), and an MCMC the default errors fall back
-#: to stops after 5 s (by default it runs all its steps): all three only save time.
-FIT_OPTIONS = {"progress": False, "check_limb_darkening": False, "window": True, "mcmc_seconds": 5.0}
+#: Options of the fit, all to save time: the limb-darkening plausibility check is skipped, the
+#: fit windows are used (same model, fewer points), and the errors come from the covariance
+#: (the least squares, its restarts, refinement and third-light check all run).
+FIT_OPTIONS = {"progress": False, "check_limb_darkening": False, "window": True, "errors": "covariance"}
+#: Every MCMC_EVERY-th input takes the default errors instead ("auto": the MCMC, with its profile
+#: starts, whenever the covariance cannot be trusted), the chain stopped after 2 s.  An MCMC on
+#: every input would triple the run (8 s of CPU per fitted input, most of it sampling).
+MCMC_EVERY = 10
+MCMC_OPTIONS = {"errors": "auto", "mcmc_seconds": 2.0}
 
 
 # ---------------------------------------------------------------------------------------
@@ -240,10 +249,11 @@ def search_options(lc, period: float) -> dict:
     return {"min_period": lo, "max_period": hi, "oversample": 1.0}
 
 
-def run_case(path: str, period: float, fit: bool = True) -> tuple[str, str, dict]:
+def run_case(path: str, period: float, fit: bool = True, mcmc: bool = False) -> tuple[str, str, dict]:
     """(outcome, detail, options) for one file: outcome "success", "refused" or "crash".
 
-    ``fit=False`` stops after the period search (for quick samples).
+    ``fit=False`` stops after the period search (for quick samples); ``mcmc`` fits with
+    :data:`MCMC_OPTIONS` on top of :data:`FIT_OPTIONS`.
     """
     from eclipsekit import EclipsekitError
     from eclipsekit.data import read_light_curve
@@ -259,7 +269,7 @@ def run_case(path: str, period: float, fit: bool = True) -> tuple[str, str, dict
                 options = search_options(lc, period)
                 search = find_period(lc, n_jobs=1, progress=False, **options)
                 if fit:
-                    fit_eclipses(lc, search, **FIT_OPTIONS)
+                    fit_eclipses(lc, search, **{**FIT_OPTIONS, **(MCMC_OPTIONS if mcmc else {})})
     except EclipsekitError as exc:
         return "refused", type(exc).__name__, options
     except Exception as exc:  # noqa: BLE001 - everything else is what we are looking for
@@ -286,7 +296,7 @@ def worker(seed: int, folder: str, fit: bool = True, cpu_limit: float = 30.0, ki
             os.kill(os.getpid(), signal.SIGSEGV)
         signal.setitimer(signal.ITIMER_VIRTUAL, cpu_limit)
         cpu = time.process_time()
-        outcome, detail, options = run_case(path, case["period"], fit)
+        outcome, detail, options = run_case(path, case["period"], fit, index % MCMC_EVERY == 0)
         cpu = time.process_time() - cpu
         signal.setitimer(signal.ITIMER_VIRTUAL, 0.0)
         print(json.dumps({"done": index, "outcome": outcome, "detail": detail, "cpu": round(cpu, 3),
@@ -432,7 +442,7 @@ def main(argv: list[str] | None = None) -> int:
         path = args.out / f"seed{args.seed}_case{args.only}.csv"
         path.write_text(case["text"])
         print(f"mutations: {case['mutations']}; file {path}")
-        outcome, detail, options = run_case(str(path), case["period"], not args.no_fit)
+        outcome, detail, options = run_case(str(path), case["period"], not args.no_fit, args.only % MCMC_EVERY == 0)
         print(outcome, detail, {k: v for k, v in options.items() if k != "traceback"})
         print(options.get("traceback", ""))
         return 0
