@@ -108,6 +108,29 @@ def test_gp_likelihood_matches_dense_cholesky(Q):
         _dense_marginal(t, y, var, hyper, np.zeros((t.size, 0))), rel=1e-8)
 
 
+def test_kernel_that_cannot_be_factorised_is_numpys_linalg_error(monkeypatch):
+    # regression test (a fuzzed light curve): celerite2 raises its own LinAlgError for a matrix it cannot
+    # factorise; the likelihood turns it into numpy's, which the fit's callers handle, and the
+    # hyperparameter search treats such a kernel as impossible rather than failing
+    import celerite2
+    from celerite2.driver import LinAlgError as CeleriteLinAlgError
+
+    from eclipsekit.fit.baseline import fit_hyperparameters
+
+    t = np.linspace(0.0, 10.0, 60)
+    resid = np.random.default_rng(3).normal(0.0, 1e-3, t.size)
+    var = np.full(t.size, 1e-6)
+
+    def failing(self, *args, **kwargs):
+        raise CeleriteLinAlgError("failed to factorize or solve matrix")
+
+    monkeypatch.setattr(celerite2.GaussianProcess, "compute", failing)
+    with pytest.raises(np.linalg.LinAlgError, match="Gaussian process"):
+        gp_log_likelihood(t, resid, var, {"jitter": 0.0, "sigma": 1e-3, "rho": 1.0, "Q": 1.0})
+    hyper, log_l = fit_hyperparameters(t, resid, var, rho_min=0.5, rho_max=10.0)
+    assert set(hyper) == {"jitter", "sigma", "rho", "Q"} and log_l < -1e299  # every trial kernel refused
+
+
 def test_fit_objective_and_mcmc_likelihood_match_dense_gp():
     """The least squares' whitened residuals and the MCMC's log-likelihood are those of one dense Gaussian.
 

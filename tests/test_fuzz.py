@@ -65,3 +65,13 @@ def test_harness_counts_a_signal_as_a_crash(fuzz, tmp_path):
     outcomes = {r["index"]: (r["outcome"], r["detail"]) for r in results}
     assert outcomes[1] == ("crash", "signal 11")
     assert outcomes[0][0] != "crash" and outcomes[2][0] != "crash"
+
+
+def test_gaussian_process_that_cannot_be_factorised_is_not_a_crash(fuzz, tmp_path):
+    # regression test: case 757 of seed 1 (unsorted times, offset, all errors rescaled) made celerite2
+    # fail to factorise a trial kernel while the baseline was chosen; its own LinAlgError escaped the fit
+    case = fuzz.make_case(1, 757)
+    path = tmp_path / "case.csv"
+    path.write_text(case["text"])
+    outcome, detail, options = fuzz.run_case(str(path), case["period"], True, False)
+    assert outcome != "crash", options.get("traceback")

@@ -34,8 +34,9 @@ baseline``.
 
 from __future__ import annotations
 
+import contextlib
 import math
-from typing import Any, Mapping
+from typing import Any, Iterator, Mapping
 
 import numpy as np
 
@@ -66,11 +67,24 @@ def sho_kernel(hyper: Mapping[str, float]) -> Any:
     return terms.SHOTerm(sigma=hyper["sigma"], rho=hyper["rho"], Q=hyper["Q"])
 
 
+@contextlib.contextmanager
+def _numpy_linalg_error() -> Iterator[None]:
+    """celerite2's own LinAlgError (a matrix it cannot factorise or solve, e.g. from extreme
+    hyperparameters or errors) as numpy's, which every caller of the likelihood already handles."""
+    from celerite2.driver import LinAlgError
+
+    try:
+        yield
+    except LinAlgError as exc:
+        raise np.linalg.LinAlgError(f"Gaussian process: {exc}") from exc
+
+
 def _gp(time: np.ndarray, diag: np.ndarray, hyper: Mapping[str, float]) -> Any:
     import celerite2
 
     gp = celerite2.GaussianProcess(sho_kernel(hyper), mean=0.0)
-    gp.compute(time, diag=diag, check_sorted=False)
+    with _numpy_linalg_error():
+        gp.compute(time, diag=diag, check_sorted=False)
     return gp
 
 
@@ -79,14 +93,16 @@ def _whiten(gp: Any, r: np.ndarray) -> np.ndarray:
     from celerite2 import driver
 
     z = np.ascontiguousarray(r, dtype=np.float64)[:, None].copy()
-    z = driver.solve_lower(gp._t, gp._c, gp._U, gp._W, z, z)[:, 0]
+    with _numpy_linalg_error():
+        z = driver.solve_lower(gp._t, gp._c, gp._U, gp._W, z, z)[:, 0]
     return z / np.sqrt(gp._d)
 
 
 def _gls(gp: Any, X: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, float, float]:
     """Generalised least squares of ``y`` on the columns ``X``: (coefficients, log det X^T C^-1 X, chi2)."""
-    ci_y = gp.apply_inverse(y)
-    ci_x = gp.apply_inverse(X)
+    with _numpy_linalg_error():
+        ci_y = gp.apply_inverse(y)
+        ci_x = gp.apply_inverse(X)
     G = X.T @ ci_x
     rhs = X.T @ ci_y
     coef = np.linalg.solve(G, rhs)
@@ -105,7 +121,8 @@ def gp_log_likelihood(time: np.ndarray, resid: np.ndarray, var: np.ndarray, hype
         gp = _gp(time, diag, hyper)
         logdet = float(gp._log_det)
         if X is None or X.shape[1] == 0:
-            chi2, logdet_g = float(resid @ gp.apply_inverse(resid)), 0.0
+            with _numpy_linalg_error():
+                chi2, logdet_g = float(resid @ gp.apply_inverse(resid)), 0.0
         else:
             _, logdet_g, chi2 = _gls(gp, X, resid)
     else:  # white noise only
@@ -224,7 +241,8 @@ class VariabilityProblem(Problem):
         if self.hyper is not None:
             f = self.flux if flux is None else flux
             gp = self._gp_state[0]
-            base = base + gp.predict(f / m - base, include_mean=False)
+            with _numpy_linalg_error():
+                base = base + gp.predict(f / m - base, include_mean=False)
         return base, coef, logdet
 
     def evaluate(self, v: Mapping[str, float], flux: np.ndarray | None = None):
