@@ -3,7 +3,7 @@ eclipsekit error may come out (no other exception, no signal, no hang).
 
 A seeded sample through the harness of ``scripts/fuzz_inputs.py`` (loaded from there, so the
 script and this test run the same code).  The script runs >= 10,000 inputs; this is the
-quick sample: 160 inputs stopped after the period search, and 16 through the fit too.
+quick sample: 320 inputs stopped after the period search, and 16 through the fit too.
 """
 
 from __future__ import annotations
@@ -42,9 +42,9 @@ def test_every_mutation_can_follow_any_other(fuzz):
 
 
 def test_sample_through_period_search(fuzz, tmp_path):
-    # seed 101, inputs 0-159, two worker processes; reproducers of any crash go to tmp_path
-    results = fuzz.run(160, 101, 2, tmp_path, timeout=30.0, batch=80, progress=False, fit=False)
-    assert len(results) == 160
+    # seed 101, inputs 0-319, two worker processes; reproducers of any crash go to tmp_path
+    results = fuzz.run(320, 101, 2, tmp_path, timeout=30.0, batch=160, progress=False, fit=False)
+    assert len(results) == 320
     assert not _crashes(results), fuzz.report(results)
     # the sample exercises all three outcomes, so it is not vacuous
     assert {r["outcome"] for r in results} == {"success", "refused"}
